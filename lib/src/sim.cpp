@@ -1,0 +1,375 @@
+// sim: the symbol-rate AWGN link, the thread-pool executor and the sweep engine.
+#include "qamsight/sim.hpp"
+
+#include <algorithm>
+#include <bit>
+#include <chrono>
+#include <cmath>
+#include <condition_variable>
+#include <cstring>
+#include <limits>
+#include <mutex>
+#include <thread>
+
+#include "qamsight/channel.hpp"
+#include "qamsight/theory.hpp"
+
+namespace qamsight {
+
+// ---------------------------------------------------------------------------------------------
+// Keys and grid.
+
+std::uint32_t point_stream_key(const std::string& modulation, SnrKind kind, double snr_db) noexcept {
+  std::uint32_t h = 2166136261u;
+  auto mix = [&h](std::uint8_t byte) {
+    h ^= byte;
+    h *= 16777619u;
+  };
+  for (char c : modulation) mix(static_cast<std::uint8_t>(c));
+  mix(kind == SnrKind::eb_n0 ? 'b' : 's');
+  const double canonical = snr_db == 0.0 ? 0.0 : snr_db;  // -0 and +0 share a key
+  const auto bits = std::bit_cast<std::uint64_t>(canonical);
+  for (int i = 0; i < 8; ++i) mix(static_cast<std::uint8_t>(bits >> (8 * i)));
+  return h;
+}
+
+double information_bits_per_symbol(const LinkConfig& /*link*/, const Constellation& constellation) {
+  return static_cast<double>(constellation.bits_per_symbol());
+}
+
+void validate(const SweepConfig& c) {
+  if (c.modulations.empty()) throw ConfigError("modulations", "(none)", "at least one modulation");
+  for (const auto& m : c.modulations) (void)Constellation::from_name(m);
+  if (c.snr_db.empty()) throw ConfigError(c.snr_kind == SnrKind::eb_n0 ? "eb_n0_db" : "es_n0_db", "(none)", "at least one value");
+  for (double s : c.snr_db) require_range(c.snr_kind == SnrKind::eb_n0 ? "eb_n0_db" : "es_n0_db", s, -30.0, 100.0);
+  if (c.stop.min_bit_errors < 1) throw ConfigError("min_errors", "0", "at least 1");
+  if (c.stop.max_bits < 1) throw ConfigError("max_bits", "0", "at least 1");
+  if (!(std::isfinite(c.stop.max_relative_width) && c.stop.max_relative_width >= 0.0 &&
+        c.stop.max_relative_width <= 100.0)) {
+    throw ConfigError("max_relative_width", format_number(c.stop.max_relative_width),
+                      "0 (off) or a positive width up to 100");
+  }
+  if (!(c.confidence > 0.0 && c.confidence < 1.0)) {
+    throw ConfigError("confidence", format_number(c.confidence), "strictly between 0 and 1");
+  }
+  if (c.threads > 4096) throw ConfigError("threads", std::to_string(c.threads), "0 (all cores) to 4096");
+  if (c.link.frame_symbols < 16 || c.link.frame_symbols > (std::size_t{1} << 22)) {
+    throw ConfigError("frame_symbols", std::to_string(c.link.frame_symbols), "16 to 4194304");
+  }
+  require_range("impl_loss_db", c.link.impl_loss_db, 0.0, 60.0);
+}
+
+std::vector<PointSpec> sweep_points(const SweepConfig& c) {
+  validate(c);
+  std::vector<PointSpec> out;
+  for (const auto& m : c.modulations) {
+    const auto constellation = Constellation::from_name(m);
+    const double bps = information_bits_per_symbol(c.link, constellation);
+    for (double s : c.snr_db) {
+      PointSpec p;
+      p.modulation = constellation.name();
+      if (c.snr_kind == SnrKind::eb_n0) {
+        p.eb_n0_db = s;
+        p.es_n0_db = theory::es_n0_db_from_eb_n0_db(s, bps);
+      } else {
+        p.es_n0_db = s;
+        p.eb_n0_db = theory::eb_n0_db_from_es_n0_db(s, bps);
+      }
+      p.stream_key = point_stream_key(p.modulation, c.snr_kind, s);
+      out.push_back(std::move(p));
+    }
+  }
+  return out;
+}
+
+std::uint64_t batch_frames(std::uint64_t batch_index) noexcept {
+  return batch_index >= 4 ? 64u : (4u << batch_index);
+}
+
+// ---------------------------------------------------------------------------------------------
+// The symbol-rate link: labels -> Gray map -> AWGN -> slicer, counting bit and symbol errors.
+
+namespace {
+
+class SymbolRateLink final : public Link {
+ public:
+  SymbolRateLink(const LinkConfig& link, const PointSpec& point, std::uint64_t seed)
+      : constellation_(Constellation::from_name(point.modulation)),
+        awgn_(AwgnConfig{point.es_n0_db - link.impl_loss_db, 1.0}),
+        frame_symbols_(link.frame_symbols),
+        seed_(seed),
+        key_(point.stream_key) {}
+
+  std::uint64_t bits_per_frame() const override {
+    return frame_symbols_ * constellation_.bits_per_symbol();
+  }
+  std::unique_ptr<FrameRunner> make_runner() const override;
+
+  const Constellation constellation_;
+  const AwgnChannel awgn_;
+  const std::size_t frame_symbols_;
+  const std::uint64_t seed_;
+  const std::uint32_t key_;
+};
+
+class SymbolRateRunner final : public FrameRunner {
+ public:
+  explicit SymbolRateRunner(const SymbolRateLink& link)
+      : link_(link),
+        tx_labels_(link.frame_symbols_),
+        rx_labels_(link.frame_symbols_),
+        tx_(link.frame_symbols_),
+        rx_(link.frame_symbols_) {}
+
+  void run(std::uint64_t frame, FrameResult& out) override {
+    const auto& c = link_.constellation_;
+    const std::uint64_t stream = frame_stream(link_.key_, frame);
+    RandomStream payload(link_.seed_, stream, Substream::payload);
+    payload.fill_labels(tx_labels_, c.bits_per_symbol());
+    c.map_labels(tx_labels_, tx_);
+    RandomStream noise(link_.seed_, stream, Substream::awgn);
+    link_.awgn_.process(noise, tx_, rx_);
+    c.slice(rx_, rx_labels_);
+    std::uint64_t bit_errors = 0, symbol_errors = 0;
+    for (std::size_t i = 0; i < tx_labels_.size(); ++i) {
+      const std::uint32_t diff = tx_labels_[i] ^ rx_labels_[i];
+      bit_errors += static_cast<unsigned>(std::popcount(diff));
+      symbol_errors += diff != 0;
+    }
+    out = FrameResult{};
+    out.counts.bits = tx_labels_.size() * c.bits_per_symbol();
+    out.counts.bit_errors = bit_errors;
+    out.counts.symbols = tx_labels_.size();
+    out.counts.symbol_errors = symbol_errors;
+    out.counts.frames = 1;
+    out.counts.frame_errors = bit_errors != 0;
+    out.evm.add(rx_, tx_);
+  }
+
+ private:
+  const SymbolRateLink& link_;
+  std::vector<std::uint32_t> tx_labels_, rx_labels_;
+  std::vector<cf32> tx_, rx_;
+};
+
+std::unique_ptr<FrameRunner> SymbolRateLink::make_runner() const {
+  return std::make_unique<SymbolRateRunner>(*this);
+}
+
+}  // namespace
+
+std::unique_ptr<Link> make_link(const LinkConfig& link, const PointSpec& point, std::uint64_t seed) {
+  return std::make_unique<SymbolRateLink>(link, point, seed);
+}
+
+// ---------------------------------------------------------------------------------------------
+// Thread pool executor. The caller's thread takes part; workers pick frames from an atomic
+// index, and each worker owns the runner it made for the current link.
+
+namespace {
+
+class ThreadExecutor final : public FrameExecutor {
+ public:
+  explicit ThreadExecutor(unsigned threads) : threads_(std::max(1u, threads)), runners_(threads_) {
+    for (unsigned w = 1; w < threads_; ++w) workers_.emplace_back([this, w] { worker_loop(w); });
+  }
+  ~ThreadExecutor() override {
+    {
+      std::lock_guard lock(mutex_);
+      quit_ = true;
+      ++generation_;
+    }
+    wake_.notify_all();
+    for (auto& t : workers_) t.join();
+  }
+
+  void run(const Link& link, std::size_t /*point*/, std::uint64_t first,
+           std::span<FrameResult> out) override {
+    if (&link != current_link_) {
+      for (auto& r : runners_) r.reset();
+      current_link_ = &link;
+    }
+    {
+      std::lock_guard lock(mutex_);
+      job_first_ = first;
+      job_out_ = out;
+      next_.store(0, std::memory_order_relaxed);
+      busy_ = threads_ - 1;
+      ++generation_;
+    }
+    wake_.notify_all();
+    work(0);
+    std::unique_lock lock(mutex_);
+    done_.wait(lock, [this] { return busy_ == 0; });
+  }
+
+ private:
+  void work(unsigned w) {
+    for (;;) {
+      const std::size_t i = next_.fetch_add(1, std::memory_order_relaxed);
+      if (i >= job_out_.size()) break;
+      if (!runners_[w]) runners_[w] = current_link_->make_runner();
+      runners_[w]->run(job_first_ + i, job_out_[i]);
+    }
+  }
+
+  void worker_loop(unsigned w) {
+    std::uint64_t seen = 0;
+    for (;;) {
+      {
+        std::unique_lock lock(mutex_);
+        wake_.wait(lock, [&] { return generation_ != seen; });
+        seen = generation_;
+        if (quit_) return;
+      }
+      work(w);
+      {
+        std::lock_guard lock(mutex_);
+        --busy_;
+      }
+      done_.notify_one();
+    }
+  }
+
+  const unsigned threads_;
+  std::vector<std::unique_ptr<FrameRunner>> runners_;
+  std::vector<std::thread> workers_;
+  const Link* current_link_ = nullptr;
+  std::mutex mutex_;
+  std::condition_variable wake_, done_;
+  std::uint64_t generation_ = 0;
+  unsigned busy_ = 0;
+  bool quit_ = false;
+  std::uint64_t job_first_ = 0;
+  std::span<FrameResult> job_out_;
+  std::atomic<std::size_t> next_{0};
+};
+
+}  // namespace
+
+std::unique_ptr<FrameExecutor> make_thread_executor(unsigned threads) {
+  if (threads == 0) threads = std::max(1u, std::thread::hardware_concurrency());
+  return std::make_unique<ThreadExecutor>(threads);
+}
+
+// ---------------------------------------------------------------------------------------------
+// Sweep engine.
+
+PointResult make_point_result(const PointSpec& spec, const PointState& state, double confidence) {
+  PointResult r;
+  r.spec = spec;
+  r.counts = state.totals.counts;
+  r.evm = state.totals.evm;
+  r.stop_reason = state.stop_reason;
+  const auto& c = r.counts;
+  const double nan = std::numeric_limits<double>::quiet_NaN();
+  auto rate = [&](std::uint64_t k, std::uint64_t n, double& v, double& lo, double& hi) {
+    if (n == 0) {
+      v = lo = hi = nan;
+      return;
+    }
+    v = static_cast<double>(k) / static_cast<double>(n);
+    const Interval iv = clopper_pearson(k, n, confidence);
+    lo = iv.low;
+    hi = iv.high;
+  };
+  rate(c.bit_errors, c.bits, r.ber, r.ber_low, r.ber_high);
+  rate(c.symbol_errors, c.symbols, r.ser, r.ser_low, r.ser_high);
+  rate(c.frame_errors, c.frames, r.fer, r.fer_low, r.fer_high);
+  if (theory::has_reference(spec.modulation)) {
+    r.ber_theory = theory::ber_for(spec.modulation, spec.eb_n0_db);
+    r.ser_theory = theory::ser_for(spec.modulation, spec.eb_n0_db);
+  } else {
+    r.ber_theory = r.ser_theory = nan;
+  }
+  return r;
+}
+
+namespace {
+
+// Returns the reason to stop, or an empty string to go on.
+std::string stop_reason(const StopRule& rule, const ErrorCounts& c, double confidence) {
+  if (c.bit_errors >= rule.min_bit_errors) return "min_errors";
+  if (c.bits >= rule.max_bits) return "max_bits";
+  if (rule.max_relative_width > 0.0 && c.bit_errors > 0) {
+    const Interval iv = clopper_pearson(c.bit_errors, c.bits, confidence);
+    const double ber = static_cast<double>(c.bit_errors) / static_cast<double>(c.bits);
+    if ((iv.high - iv.low) / ber <= rule.max_relative_width) return "relative_width";
+  }
+  return {};
+}
+
+}  // namespace
+
+SweepResult run_sweep(const SweepConfig& config, const SweepHooks& hooks) {
+  const std::vector<PointSpec> points = sweep_points(config);
+  if (!hooks.resume.empty() && hooks.resume.size() != points.size()) {
+    throw ConfigError("resume", std::to_string(hooks.resume.size()) + " point states",
+                      "one per point of the sweep (" + std::to_string(points.size()) + ")");
+  }
+  std::unique_ptr<FrameExecutor> own_executor;
+  FrameExecutor* executor = hooks.executor;
+  if (!executor) {
+    own_executor = make_thread_executor(config.threads);
+    executor = own_executor.get();
+  }
+
+  SweepResult result;
+  result.config = config;
+  std::vector<FrameResult> batch;
+  for (std::size_t p = 0; p < points.size(); ++p) {
+    const PointSpec& spec = points[p];
+    PointState state = hooks.resume.empty() ? PointState{} : hooks.resume[p];
+    const auto start = std::chrono::steady_clock::now();
+    const auto link = make_link(config.link, spec, config.seed);
+    const std::uint64_t frame_bits = link->bits_per_frame();
+    QAMSIGHT_ASSERT(frame_bits > 0, "link carries no bits");
+    while (!state.done) {
+      if (hooks.cancel && hooks.cancel->load()) break;
+      // Batch index from the frames done so far, so a resumed point continues the schedule.
+      std::uint64_t done_frames = state.next_frame, b = 0, edge = 0;
+      while (edge + batch_frames(b) <= done_frames) edge += batch_frames(b++);
+      std::uint64_t n = edge + batch_frames(b) - done_frames;
+      const std::uint64_t bits_left =
+          config.stop.max_bits > state.totals.counts.bits ? config.stop.max_bits - state.totals.counts.bits : 0;
+      n = std::max<std::uint64_t>(1, std::min(n, (bits_left + frame_bits - 1) / frame_bits));
+      batch.assign(n, FrameResult{});
+      executor->run(*link, p, state.next_frame, batch);
+      for (const auto& f : batch) {
+        state.totals.counts += f.counts;
+        state.totals.evm += f.evm;
+      }
+      state.next_frame += n;
+      state.stop_reason = stop_reason(config.stop, state.totals.counts, config.confidence);
+      state.done = !state.stop_reason.empty();
+      if (hooks.on_batch) hooks.on_batch(p, spec, state);
+      if (hooks.progress) {
+        SweepProgress pr;
+        pr.point = p;
+        pr.points = points.size();
+        pr.spec = &spec;
+        pr.state = &state;
+        pr.point_seconds = std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
+        const auto& c = state.totals.counts;
+        const double f = std::max(static_cast<double>(c.bit_errors) / static_cast<double>(config.stop.min_bit_errors),
+                                  static_cast<double>(c.bits) / static_cast<double>(config.stop.max_bits));
+        pr.point_eta_seconds = f > 0 ? pr.point_seconds * (1.0 - std::min(f, 1.0)) / std::min(f, 1.0)
+                                     : std::numeric_limits<double>::quiet_NaN();
+        hooks.progress(pr);
+      }
+    }
+    PointResult r = make_point_result(spec, state, config.confidence);
+    r.seconds = std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
+    if (!state.done) {
+      result.complete = false;
+      if (state.next_frame == 0) break;  // nothing measured for this point
+      r.stop_reason = "cancelled";
+      result.points.push_back(std::move(r));
+      break;
+    }
+    result.points.push_back(std::move(r));
+  }
+  return result;
+}
+
+}  // namespace qamsight

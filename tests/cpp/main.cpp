@@ -1,0 +1,3 @@
+// Test runner entry point (Catch2 v2).
+#define CATCH_CONFIG_MAIN
+#include <catch2/catch.hpp>

@@ -1,0 +1,173 @@
+// Tests of core: Philox known answers, uniform and Gaussian statistics, tails, errors.
+#include <algorithm>
+#include <boost/math/distributions/chi_squared.hpp>
+#include <boost/math/distributions/normal.hpp>
+#include <catch2/catch.hpp>
+#include <cmath>
+#include <vector>
+
+#include "qamsight/core.hpp"
+#include "qamsight/measure.hpp"
+#include "reference_tables.hpp"
+
+using namespace qamsight;
+
+TEST_CASE("Philox4x32-10 known-answer vectors", "[core]") {
+  // Known-answer vectors of the Random123 distribution (kat_vectors, philox4x32 with 10
+  // rounds) accompanying Salmon et al., SC 2011. From memory: three independent vectors all
+  // matching makes a transcription error vanishingly unlikely.
+  struct Kat {
+    PhiloxCounter ctr;
+    PhiloxKey key;
+    PhiloxCounter out;
+  };
+  const Kat kats[] = {
+      {{0, 0, 0, 0}, {0, 0}, {0x6627e8d5, 0xe169c58d, 0xbc57ac4c, 0x9b00dbd8}},
+      {{0xffffffff, 0xffffffff, 0xffffffff, 0xffffffff},
+       {0xffffffff, 0xffffffff},
+       {0x408f276d, 0x41c83b0e, 0xa20bc7c6, 0x6d5451fd}},
+      {{0x243f6a88, 0x85a308d3, 0x13198a2e, 0x03707344},
+       {0xa4093822, 0x299f31d0},
+       {0xd16cfe09, 0x94fdcceb, 0x5001e420, 0x24126ea1}},
+  };
+  for (const auto& k : kats) CHECK(philox4x32(k.ctr, k.key) == k.out);
+}
+
+TEST_CASE("RandomStream layout: seed is the key, stream and substream the counter", "[core]") {
+  RandomStream rs(0xa4093822299f31d0ull ^ 0, 0, 0u);
+  const auto b = rs.next_block();
+  CHECK(b == philox4x32({0, 0, 0, 0}, {0x299f31d0u, 0xa4093822u}));
+  RandomStream s2(7, 0x0000000500000009ull, Substream::awgn);
+  s2.seek_block(3);
+  CHECK(s2.next_block() == philox4x32({3, 2, 9, 5}, {7, 0}));
+}
+
+TEST_CASE("uniform samples: moments and range", "[core]") {
+  RandomStream rs(11, 1, Substream::user);
+  std::vector<float> u(1 << 20);
+  rs.fill_uniform(u);
+  double m = 0, m2 = 0;
+  for (float v : u) {
+    REQUIRE(v >= 0.0f);
+    REQUIRE(v < 1.0f);
+    m += v;
+    m2 += double(v) * v;
+  }
+  const double n = static_cast<double>(u.size());
+  m /= n;
+  m2 /= n;
+  // Uniform(0,1): mean 1/2 (sd 1/sqrt(12 n)), E[u^2] = 1/3; 6-sigma bands (false alarm ~2e-9).
+  CHECK(std::abs(m - 0.5) < 6.0 / std::sqrt(12.0 * n));
+  CHECK(std::abs(m2 - 1.0 / 3.0) < 6.0 * std::sqrt(4.0 / 45.0 / n));
+}
+
+TEST_CASE("Gaussian samples: moments and Kolmogorov-Smirnov against the normal CDF", "[core]") {
+  RandomStream rs(2026, 42, Substream::awgn);
+  const std::size_t n = 200000;
+  std::vector<double> g(n);
+  rs.fill_gaussian(std::span<double>(g));
+  double m1 = 0, m2 = 0, m3 = 0, m4 = 0;
+  for (double x : g) {
+    m1 += x;
+    m2 += x * x;
+    m3 += x * x * x;
+    m4 += x * x * x * x;
+  }
+  const double nd = static_cast<double>(n);
+  m1 /= nd, m2 /= nd, m3 /= nd, m4 /= nd;
+  // Standard normal moments 0, 1, 0, 3 with standard errors 1, sqrt 2, sqrt 15, sqrt 96 over
+  // sqrt n; 6-sigma bands.
+  CHECK(std::abs(m1) < 6.0 / std::sqrt(nd));
+  CHECK(std::abs(m2 - 1.0) < 6.0 * std::sqrt(2.0 / nd));
+  CHECK(std::abs(m3) < 6.0 * std::sqrt(15.0 / nd));
+  CHECK(std::abs(m4 - 3.0) < 6.0 * std::sqrt(96.0 / nd));
+
+  std::sort(g.begin(), g.end());
+  const boost::math::normal_distribution<double> normal;
+  double d = 0.0;
+  for (std::size_t i = 0; i < n; ++i) {
+    const double f = boost::math::cdf(normal, g[i]);
+    d = std::max({d, f - static_cast<double>(i) / nd, static_cast<double>(i + 1) / nd - f});
+  }
+  // Asymptotic Kolmogorov critical value at alpha = 0.001: 1.949 / sqrt(n) (tables of the
+  // Kolmogorov distribution, e.g. Massey, J. Amer. Statist. Assoc. 46, 1951; common practice).
+  CHECK(d < 1.949 / std::sqrt(nd));
+}
+
+TEST_CASE("Gaussian tails beyond 3 and 4 sigma within binomial bounds", "[core]") {
+  const std::size_t n = 1 << 23;
+  std::vector<float> g(n);
+  RandomStream rs(5, 77, Substream::awgn);
+  rs.fill_gaussian(g);
+  std::uint64_t beyond3 = 0, beyond4 = 0;
+  for (float x : g) {
+    beyond3 += std::abs(x) > 3.0f;
+    beyond4 += std::abs(x) > 4.0f;
+  }
+  // Two-sided normal tails 2 Q(3) and 2 Q(4) from scipy.special.ndtr (stats_table.csv rows
+  // normal_cdf, and Boost.Math here), tested with exact 99.9% Clopper-Pearson intervals.
+  const boost::math::normal_distribution<double> normal;
+  const double p3 = 2.0 * boost::math::cdf(boost::math::complement(normal, 3.0));
+  const double p4 = 2.0 * boost::math::cdf(boost::math::complement(normal, 4.0));
+  const Interval i3 = clopper_pearson(beyond3, n, 0.999), i4 = clopper_pearson(beyond4, n, 0.999);
+  CHECK(i3.low <= p3);
+  CHECK(p3 <= i3.high);
+  CHECK(i4.low <= p4);
+  CHECK(p4 <= i4.high);
+}
+
+TEST_CASE("Box-Muller radius is exact far into the tail (beyond 7 sigma)", "[core]") {
+  // The radial uniform is u = (x + 1/2) 2^-64 and R = sqrt(-2 ln u), so P(R > r) equals the
+  // fraction of 64-bit x below x* = exp(-r^2/2) 2^64: the Rayleigh tail exp(-r^2/2) is
+  // reproduced to within one count of x*, i.e. to 1 part in 4e8 at r = 7 (x* = 4.2e8).
+  // Check that the radius crosses r within one step of x* at r = 7, 8, 9.
+  for (double r : {7.0, 8.0, 9.0}) {
+    const double xstar = std::exp(-r * r / 2.0) * 0x1p64;  // boundary value of x
+    const auto below = static_cast<std::uint64_t>(std::floor(xstar)) - 1;
+    const auto above = static_cast<std::uint64_t>(std::ceil(xstar)) + 1;
+    auto radius = [](std::uint64_t x) {
+      const auto g = box_muller(static_cast<std::uint32_t>(x >> 32), static_cast<std::uint32_t>(x), 0, 0);
+      return std::hypot(g[0], g[1]);
+    };
+    CHECK(radius(below) > r);
+    CHECK(radius(above) < r);
+  }
+  // The largest radius the generator can produce.
+  const auto g = box_muller(0, 0, 0, 0);
+  qamsight::test::check_close(std::hypot(g[0], g[1]), std::sqrt(-2.0 * std::log(0.5 * 0x1p-64)), 1e-12);
+  CHECK(std::hypot(g[0], g[1]) > 9.4);
+}
+
+TEST_CASE("streams are reproducible and independent", "[core]") {
+  std::vector<float> a(1000), b(1000), c(1000);
+  RandomStream(1, 2, Substream::awgn).fill_gaussian(a);
+  RandomStream(1, 2, Substream::awgn).fill_gaussian(b);
+  RandomStream(1, 3, Substream::awgn).fill_gaussian(c);
+  CHECK(a == b);
+  CHECK(a != c);
+  std::vector<std::uint32_t> l(4096);
+  RandomStream(9, 9, Substream::payload).fill_labels(l, 6);
+  std::vector<int> hist(64, 0);
+  for (auto v : l) {
+    REQUIRE(v < 64u);
+    ++hist[v];
+  }
+  // Each label appears about 64 times; Pearson chi-square against its 63-degree-of-freedom
+  // 99.9% quantile (Boost.Math; scipy.stats.chi2.ppf(0.999, 63) = 103.44).
+  double chi2 = 0;
+  for (int h : hist) chi2 += (h - 64.0) * (h - 64.0) / 64.0;
+  CHECK(chi2 < boost::math::quantile(boost::math::chi_squared_distribution<double>(63.0), 0.999));
+}
+
+TEST_CASE("configuration errors name the parameter, the value and the range", "[core]") {
+  try {
+    require_range("es_n0_db", std::nan(""), -50, 150);
+    FAIL("no throw");
+  } catch (const ConfigError& e) {
+    CHECK(e.parameter() == "es_n0_db");
+    CHECK(e.value() == "nan");
+    CHECK(std::string(e.what()).find("-50 to 150") != std::string::npos);
+  }
+  CHECK_THROWS_AS(require_range_open_low("linewidth", 0.0, 0.0, 1e9), ConfigError);
+  CHECK_NOTHROW(require_range("x", 3.0, 3.0, 3.0));
+}

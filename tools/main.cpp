@@ -1,0 +1,48 @@
+// qamsight command-line driver: registers the subcommands and maps errors to exit codes.
+#include <cstdio>
+#include <exception>
+#include <new>
+
+#include "cli.hpp"
+#include "qamsight/core.hpp"
+
+int main(int argc, char** argv) {
+  using namespace qamsight;
+  CLI::App app{"qamsight: simulate and measure digital radio links (QAM modems, BER/EVM, coding, link margins)",
+               "qamsight"};
+  app.set_version_flag("--version", std::string("qamsight ") + std::string(version()));
+  app.require_subcommand(1);
+  app.fallthrough(false);
+  cli::register_sweep(app);
+  cli::register_theory(app);
+  cli::register_check(app);
+  cli::register_demo(app);
+  try {
+    app.parse(argc, argv);
+  } catch (const CLI::CallForHelp& e) {
+    return app.exit(e);
+  } catch (const CLI::CallForAllHelp& e) {
+    return app.exit(e);
+  } catch (const CLI::CallForVersion& e) {
+    return app.exit(e);
+  } catch (const CLI::ParseError& e) {
+    std::fprintf(stderr, "qamsight: error: %s (see --help)\n", e.what());
+    return cli::kUsage;
+  } catch (const cli::UsageError& e) {
+    std::fprintf(stderr, "qamsight: error: %s\n", e.what());
+    return cli::kUsage;
+  } catch (const ConfigError& e) {
+    std::fprintf(stderr, "qamsight: error: %s\n", e.what());
+    return cli::kUsage;
+  } catch (const InputError& e) {
+    std::fprintf(stderr, "qamsight: error: %s\n", e.what());
+    return cli::kUsage;
+  } catch (const std::bad_alloc&) {
+    std::fprintf(stderr, "qamsight: error: out of memory\n");
+    return cli::kUsage;
+  } catch (const std::exception& e) {
+    std::fprintf(stderr, "qamsight: error: %s\n", e.what());
+    return cli::kUsage;
+  }
+  return cli::exit_status();
+}

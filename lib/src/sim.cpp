@@ -98,7 +98,8 @@ class SymbolRateLink final : public Link {
         awgn_(AwgnConfig{point.es_n0_db - link.impl_loss_db, 1.0}),
         frame_symbols_(link.frame_symbols),
         seed_(seed),
-        key_(point.stream_key) {}
+        key_(point.stream_key),
+        stage_(link.stage && link.stage->process ? link.stage : nullptr) {}
 
   std::uint64_t bits_per_frame() const override {
     return frame_symbols_ * constellation_.bits_per_symbol();
@@ -110,6 +111,8 @@ class SymbolRateLink final : public Link {
   const std::size_t frame_symbols_;
   const std::uint64_t seed_;
   const std::uint32_t key_;
+  const std::shared_ptr<const UserStage> stage_;
+  mutable std::mutex stage_mutex_;
 };
 
 class SymbolRateRunner final : public FrameRunner {
@@ -119,7 +122,14 @@ class SymbolRateRunner final : public FrameRunner {
         tx_labels_(link.frame_symbols_),
         rx_labels_(link.frame_symbols_),
         tx_(link.frame_symbols_),
-        rx_(link.frame_symbols_) {}
+        rx_(link.frame_symbols_) {
+    if (link.stage_) {
+      const std::size_t bits = link.frame_symbols_ * link.constellation_.bits_per_symbol();
+      stage_symbols_.resize(link.frame_symbols_);
+      stage_llrs_.resize(bits);
+      stage_bits_.resize(bits);
+    }
+  }
 
   void run(std::uint64_t frame, FrameResult& out) override {
     const auto& c = link_.constellation_;
@@ -129,7 +139,11 @@ class SymbolRateRunner final : public FrameRunner {
     c.map_labels(tx_labels_, tx_);
     RandomStream noise(link_.seed_, stream, Substream::awgn);
     link_.awgn_.process(noise, tx_, rx_);
-    c.slice(rx_, rx_labels_);
+    if (link_.stage_) {
+      run_stage(frame);
+    } else {
+      c.slice(rx_, rx_labels_);
+    }
     std::uint64_t bit_errors = 0, symbol_errors = 0;
     for (std::size_t i = 0; i < tx_labels_.size(); ++i) {
       const std::uint32_t diff = tx_labels_[i] ^ rx_labels_[i];
@@ -143,13 +157,52 @@ class SymbolRateRunner final : public FrameRunner {
     out.counts.symbol_errors = symbol_errors;
     out.counts.frames = 1;
     out.counts.frame_errors = bit_errors != 0;
-    out.evm.add(rx_, tx_);
+    out.evm.add(link_.stage_ && link_.stage_->output == StageOutputKind::symbols ? stage_symbols_ : rx_, tx_);
   }
 
  private:
+  // Hands the received frame to the user stage and turns its output into decided labels.
+  void run_stage(std::uint64_t frame) {
+    const auto& c = link_.constellation_;
+    const UserStage& st = *link_.stage_;
+    StageInput in;
+    in.frame = frame;
+    in.samples = rx_;
+    in.symbols = rx_;
+    in.samples_per_symbol = 1;
+    in.noise_variance = link_.awgn_.noise_variance();
+    in.constellation = &c;
+    StageOutput out;
+    out.symbols = stage_symbols_;
+    out.llrs = stage_llrs_;
+    out.bits = stage_bits_;
+    if (st.serialise) {
+      std::lock_guard lock(link_.stage_mutex_);
+      st.process(in, out);
+    } else {
+      st.process(in, out);
+    }
+    switch (st.output) {
+      case StageOutputKind::symbols:
+        c.slice(stage_symbols_, rx_labels_);
+        break;
+      case StageOutputKind::llrs:
+        for (std::size_t i = 0; i < stage_bits_.size(); ++i) stage_bits_[i] = stage_llrs_[i] < 0.0f ? 1 : 0;
+        c.bits_to_labels(stage_bits_, rx_labels_);
+        break;
+      case StageOutputKind::bits:
+        for (std::size_t i = 0; i < stage_bits_.size(); ++i) stage_bits_[i] &= 1u;
+        c.bits_to_labels(stage_bits_, rx_labels_);
+        break;
+    }
+  }
+
   const SymbolRateLink& link_;
   std::vector<std::uint32_t> tx_labels_, rx_labels_;
   std::vector<cf32> tx_, rx_;
+  std::vector<cf32> stage_symbols_;
+  std::vector<float> stage_llrs_;
+  std::vector<std::uint8_t> stage_bits_;
 };
 
 std::unique_ptr<FrameRunner> SymbolRateLink::make_runner() const {

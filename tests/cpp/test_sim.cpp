@@ -153,3 +153,47 @@ TEST_CASE("cancellation stops at a batch boundary and keeps finished points", "[
   CHECK(r.points[0].stop_reason == "min_errors");
   CHECK(r.points[1].stop_reason == "cancelled");
 }
+
+TEST_CASE("user stages: symbols, LLRs or bits replace the built-in decisions", "[sim]") {
+  SweepConfig c;
+  c.modulations = {"16qam"};
+  c.snr_db = {8.0};
+  c.stop.max_bits = 2'000'000;
+  c.stop.min_bit_errors = 1'000'000'000;
+  c.threads = 2;
+  const auto plain = run_sweep(c);
+  // A pass-through symbol stage reproduces the built-in receiver exactly.
+  auto pass = std::make_shared<UserStage>();
+  pass->output = StageOutputKind::symbols;
+  pass->process = [](const StageInput& in, StageOutput& out) {
+    std::copy(in.symbols.begin(), in.symbols.end(), out.symbols.begin());
+  };
+  c.link.stage = pass;
+  CHECK(run_sweep(c).points[0].counts == plain.points[0].counts);
+  // A bit stage that slices itself (exhaustive search) gives the same decisions again.
+  auto bits = std::make_shared<UserStage>();
+  bits->output = StageOutputKind::bits;
+  bits->serialise = true;
+  bits->process = [](const StageInput& in, StageOutput& out) {
+    const unsigned k = in.constellation->bits_per_symbol();
+    for (std::size_t i = 0; i < in.symbols.size(); ++i) {
+      const auto l = in.constellation->slice_exhaustive(in.symbols[i]);
+      for (unsigned b = 0; b < k; ++b) out.bits[i * k + b] = static_cast<std::uint8_t>((l >> (k - 1 - b)) & 1u);
+    }
+  };
+  c.link.stage = bits;
+  CHECK(run_sweep(c).points[0].counts == plain.points[0].counts);
+  // A stage that inverts every LLR gets (nearly) every bit wrong: the counters see its output.
+  auto wrong = std::make_shared<UserStage>();
+  wrong->output = StageOutputKind::llrs;
+  wrong->process = [](const StageInput& in, StageOutput& out) {
+    const unsigned k = in.constellation->bits_per_symbol();
+    for (std::size_t i = 0; i < in.symbols.size(); ++i) {
+      const auto l = in.constellation->slice_exhaustive(in.symbols[i]);
+      for (unsigned b = 0; b < k; ++b) out.llrs[i * k + b] = ((l >> (k - 1 - b)) & 1u) ? 1.0f : -1.0f;
+    }
+  };
+  c.link.stage = wrong;
+  const auto w = run_sweep(c).points[0];
+  CHECK(w.counts.bit_errors == w.counts.bits - plain.points[0].counts.bit_errors);
+}

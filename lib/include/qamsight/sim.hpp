@@ -50,12 +50,48 @@ class Link {
   virtual std::uint64_t bits_per_frame() const = 0;
 };
 
+/// What a user receiver stage gets for one frame. Spans stay valid for the call only.
+struct StageInput {
+  std::uint64_t frame = 0;                  ///< frame index (for frame-keyed randomness)
+  std::span<const cf32> samples;            ///< channel output at the sample rate
+  std::span<const cf32> symbols;            ///< the built-in receiver's symbol-rate output
+  unsigned samples_per_symbol = 1;
+  double noise_variance = 0.0;              ///< N0 per symbol at the matched-filter output
+  const Constellation* constellation = nullptr;
+};
+
+/// What a user stage returns: a kind and a buffer of the right length that the stage fills.
+enum class StageOutputKind {
+  symbols,  ///< one complex symbol per transmitted symbol; the built-in slicer decides
+  llrs,     ///< one LLR per bit, ln P(b=0)/P(b=1): positive means bit 0
+  bits,     ///< one hard bit (0/1) per bit
+};
+
+struct StageOutput {
+  std::span<cf32> symbols;         ///< sized frame_symbols when kind == symbols
+  std::span<float> llrs;           ///< sized frame bits when kind == llrs
+  std::span<std::uint8_t> bits;    ///< sized frame bits when kind == bits
+};
+
+/// A receiver stage written by the user (an equaliser, demapper or synchroniser) that
+/// replaces the built-in decisions. Called once per frame, possibly from several threads at
+/// once unless `serialise` is set (then calls take a lock; a Python stage sets it). Results stay
+/// reproducible because the inputs depend only on the frame index.
+struct UserStage {
+  StageOutputKind output = StageOutputKind::symbols;
+  std::function<void(const StageInput&, StageOutput&)> process;
+  bool serialise = false;
+  std::string name = "user stage";
+};
+
 /// The chain a sweep simulates. Symbol-rate Gray-mapped AWGN unless options say otherwise.
 struct LinkConfig {
   std::size_t frame_symbols = 4096;  ///< symbols per frame; 16 to 2^22
   /// Extra noise in dB on top of the configured Es/N0 (the receiver behaves as if the SNR were
   /// this much lower); models an implementation loss and lets tests inject a known degradation.
   double impl_loss_db = 0.0;
+  /// Optional user receiver stage (empty `process` = built-in receiver).
+  std::shared_ptr<const UserStage> stage;
 };
 
 /// One operating point of a sweep.

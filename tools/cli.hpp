@@ -58,6 +58,7 @@ void register_sweep(CLI::App& app);
 void register_theory(CLI::App& app);
 void register_check(CLI::App& app);
 void register_demo(CLI::App& app);
+void register_link(CLI::App& app);
 
 }  // namespace qamsight::cli
 

@@ -17,6 +17,7 @@ int main(int argc, char** argv) {
   cli::register_theory(app);
   cli::register_check(app);
   cli::register_demo(app);
+  cli::register_link(app);
   try {
     app.parse(argc, argv);
   } catch (const CLI::CallForHelp& e) {

@@ -1,6 +1,8 @@
 // core: errors, number formatting and the Philox4x32-10 counter-based generator.
 #include "qamsight/core.hpp"
 
+#include "qamsight/detail/kernels.hpp"
+
 #include <bit>
 #include <charconv>
 #include <cmath>
@@ -86,14 +88,19 @@ PhiloxCounter philox4x32(PhiloxCounter counter, PhiloxKey key, int rounds) noexc
 
 std::array<double, 2> box_muller(std::uint32_t a0, std::uint32_t a1, std::uint32_t b0,
                                  std::uint32_t b1) noexcept {
-  const std::uint64_t x = (std::uint64_t{a0} << 32) | a1;
-  const std::uint64_t y = (std::uint64_t{b0} << 32) | b1;
-  // u in (0, 1], exact for small x where the tail lives; r up to 9.49.
-  const double u = (static_cast<double>(x) + 0.5) * 0x1p-64;
-  const double r = std::sqrt(-2.0 * std::log(u));
-  const double theta = static_cast<double>(y >> 11) * 0x1p-53 * (2.0 * std::numbers::pi);
-  return {r * std::cos(theta), r * std::sin(theta)};
+  // The sequence is defined once, in detail::gaussian_pair (kernels_portable.cpp): Box-Muller
+  // on u = (x + 1/2) 2^-64, exact for small x where the tail lives (radius up to 9.49), with the
+  // library's own double-precision log and sin/cos so that the vector kernels match it exactly.
+  std::array<double, 2> g;
+  detail::gaussian_pair(a0, a1, b0, b1, &g[0], &g[1]);
+  return g;
 }
+
+namespace {
+detail::PhiloxStart philox_start(const PhiloxCounter& c, const PhiloxKey& k) noexcept {
+  return {{c[0], c[1], c[2], c[3]}, {k[0], k[1]}};
+}
+}  // namespace
 
 RandomStream::RandomStream(std::uint64_t seed, std::uint64_t stream, Substream substream) noexcept
     : RandomStream(seed, stream, static_cast<std::uint32_t>(substream)) {}
@@ -140,50 +147,66 @@ double RandomStream::gaussian() noexcept {
 }
 
 void RandomStream::fill_uniform(std::span<float> out) noexcept {
-  for (float& v : out) v = static_cast<float>(next_u32() >> 8) * 0x1p-24f;
-}
-
-namespace {
-template <class T>
-void fill_gaussian_impl(RandomStream& rs, std::span<T> out) {
+  // Words in stream order: the rest of the current block, whole blocks by the kernel, a tail.
   std::size_t i = 0;
   const std::size_t n = out.size();
-  for (; i + 2 <= n; i += 2) {
-    const auto b = rs.next_block();
-    const auto g = box_muller(b[0], b[1], b[2], b[3]);
-    out[i] = static_cast<T>(g[0]);
-    out[i + 1] = static_cast<T>(g[1]);
-  }
-  if (i < n) {
-    const auto b = rs.next_block();
-    out[i] = static_cast<T>(box_muller(b[0], b[1], b[2], b[3])[0]);
-  }
+  for (; i < n && used_ < 4; ++i) out[i] = static_cast<float>(next_u32() >> 8) * 0x1p-24f;
+  const std::size_t blocks = (n - i) / 4;
+  detail::kernels().philox_uniform_f32(philox_start(counter_, key_), blocks, out.data() + i);
+  counter_[0] += static_cast<std::uint32_t>(blocks);
+  for (i += 4 * blocks; i < n; ++i) out[i] = static_cast<float>(next_u32() >> 8) * 0x1p-24f;
 }
-}  // namespace
 
 void RandomStream::fill_gaussian(std::span<float> out) noexcept {
   used_ = 4;
-  fill_gaussian_impl(*this, out);
+  const std::size_t pairs = out.size() / 2;
+  detail::kernels().gaussian_f32(philox_start(counter_, key_), pairs, out.data());
+  counter_[0] += static_cast<std::uint32_t>(pairs);
+  if (out.size() % 2) {
+    const auto b = next_block();
+    out.back() = static_cast<float>(box_muller(b[0], b[1], b[2], b[3])[0]);
+  }
 }
 
 void RandomStream::fill_gaussian(std::span<double> out) noexcept {
   used_ = 4;
-  fill_gaussian_impl(*this, out);
+  const std::size_t pairs = out.size() / 2;
+  detail::kernels().gaussian_f64(philox_start(counter_, key_), pairs, out.data());
+  counter_[0] += static_cast<std::uint32_t>(pairs);
+  if (out.size() % 2) {
+    const auto b = next_block();
+    out.back() = box_muller(b[0], b[1], b[2], b[3])[0];
+  }
 }
 
 void RandomStream::fill_complex_gaussian(std::span<cf32> out, double variance) noexcept {
   used_ = 4;
   const double sigma = std::sqrt(variance / 2.0);
-  for (cf32& v : out) {
-    const auto b = next_block();
-    const auto g = box_muller(b[0], b[1], b[2], b[3]);
-    v = cf32(static_cast<float>(sigma * g[0]), static_cast<float>(sigma * g[1]));
-  }
+  detail::kernels().noise_cf32(philox_start(counter_, key_), out.size(), sigma, nullptr,
+                               reinterpret_cast<float*>(out.data()));
+  counter_[0] += static_cast<std::uint32_t>(out.size());
+}
+
+void RandomStream::add_complex_noise(std::span<const cf32> in, std::span<cf32> out, double sigma) noexcept {
+  used_ = 4;
+  detail::kernels().noise_cf32(philox_start(counter_, key_), in.size(), sigma,
+                               reinterpret_cast<const float*>(in.data()), reinterpret_cast<float*>(out.data()));
+  counter_[0] += static_cast<std::uint32_t>(in.size());
 }
 
 void RandomStream::fill_labels(std::span<std::uint32_t> out, unsigned bits) noexcept {
   const unsigned shift = 32u - bits;
-  for (auto& v : out) v = shift >= 32u ? 0u : next_u32() >> shift;
+  if (shift >= 32u) {
+    for (auto& v : out) v = 0u;
+    return;
+  }
+  std::size_t i = 0;
+  const std::size_t n = out.size();
+  for (; i < n && used_ < 4; ++i) out[i] = next_u32() >> shift;
+  const std::size_t blocks = (n - i) / 4;
+  detail::kernels().philox_words(philox_start(counter_, key_), blocks, shift, out.data() + i);
+  counter_[0] += static_cast<std::uint32_t>(blocks);
+  for (i += 4 * blocks; i < n; ++i) out[i] = next_u32() >> shift;
 }
 
 void RandomStream::fill_bits(std::span<std::uint8_t> out) noexcept {

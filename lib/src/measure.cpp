@@ -1,6 +1,8 @@
 // measure: exact binomial intervals and tests (Boost.Math), EVM accumulation.
 #include "qamsight/measure.hpp"
 
+#include "qamsight/detail/kernels.hpp"
+
 #include <algorithm>
 #include <boost/math/distributions/beta.hpp>
 #include <boost/math/distributions/binomial.hpp>
@@ -77,13 +79,11 @@ double rate_increase_p_value(std::uint64_t k1, std::uint64_t n1, std::uint64_t k
 
 void EvmAccumulator::add(std::span<const cf32> received, std::span<const cf32> reference) noexcept {
   QAMSIGHT_ASSERT(received.size() == reference.size(), "received and reference lengths differ");
+  // Four interleaved double partial sums in a fixed order (detail/kernels.hpp), vectorised and
+  // bit-identical on every path, so EVM sums do not depend on the CPU either.
   double e = 0.0, r = 0.0, peak = peak_error_power;
-  for (std::size_t i = 0; i < received.size(); ++i) {
-    const double ei = std::norm(cf64(received[i]) - cf64(reference[i]));
-    e += ei;
-    r += std::norm(cf64(reference[i]));
-    peak = std::max(peak, ei);
-  }
+  detail::kernels().evm_sums(reinterpret_cast<const float*>(received.data()),
+                             reinterpret_cast<const float*>(reference.data()), received.size(), &e, &r, &peak);
   error_power += e;
   reference_power += r;
   peak_error_power = peak;

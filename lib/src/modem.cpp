@@ -1,6 +1,8 @@
 // modem: built-in and custom constellations, mapping, and hard slicing.
 #include "qamsight/modem.hpp"
 
+#include "qamsight/detail/kernels.hpp"
+
 #include <algorithm>
 #include <bit>
 #include <cmath>
@@ -150,8 +152,9 @@ double Constellation::min_distance() const noexcept {
 
 void Constellation::map_labels(std::span<const std::uint32_t> labels, std::span<cf32> out) const {
   QAMSIGHT_ASSERT(out.size() >= labels.size(), "output shorter than input");
-  const std::uint32_t mask = order() - 1;
-  for (std::size_t i = 0; i < labels.size(); ++i) out[i] = points_f_[labels[i] & mask];
+  // Vectorised table lookup (detail/kernels.hpp), identical on every path.
+  detail::kernels().map_labels(labels.data(), labels.size(), order() - 1,
+                               reinterpret_cast<const float*>(points_f_.data()), reinterpret_cast<float*>(out.data()));
 }
 
 void Constellation::bits_to_labels(std::span<const std::uint8_t> bits,
@@ -202,20 +205,13 @@ void Constellation::slice(std::span<const cf32> in, std::span<std::uint32_t> lab
   QAMSIGHT_ASSERT(labels.size() >= in.size(), "label buffer too short");
   const std::size_t n = in.size();
   switch (family_) {
-    case ConstellationFamily::square_qam: {
-      const float inv = static_cast<float>(1.0 / half_spacing_);
-      const int L = static_cast<int>(levels_);
-      const float fl = static_cast<float>(L);
-      const unsigned half = bits_ / 2;
-      const std::uint32_t* g = axis_gray_.data();
-      for (std::size_t i = 0; i < n; ++i) {
-        // Level index = floor((x/d + L)/2), clamped: decision boundaries sit at even x/d.
-        const int ii = std::clamp(static_cast<int>(std::floor((in[i].real() * inv + fl) * 0.5f)), 0, L - 1);
-        const int iq = std::clamp(static_cast<int>(std::floor((in[i].imag() * inv + fl) * 0.5f)), 0, L - 1);
-        labels[i] = (g[ii] << half) | g[iq];
-      }
+    case ConstellationFamily::square_qam:
+      // Level index = floor((x/d + L)/2), clamped: decision boundaries sit at even x/d. The
+      // kernel clamps before truncating, which equals the floor of the clamped coordinate.
+      detail::kernels().slice_square_qam(reinterpret_cast<const float*>(in.data()), n,
+                                         static_cast<float>(1.0 / half_spacing_), levels_, bits_ / 2,
+                                         labels.data());
       break;
-    }
     case ConstellationFamily::bpsk:
       for (std::size_t i = 0; i < n; ++i) labels[i] = in[i].real() >= 0.0f ? 1u : 0u;
       break;

@@ -98,6 +98,9 @@ enum class Substream : std::uint32_t {
 /// magnitude it can produce is sqrt(-2 ln 2^-65) = 9.49 sigma and the tail probability
 /// is exact (to double rounding) far beyond the 7 sigma that a BER of 1e-12 needs.
 /// Bulk fills start at a block boundary and use whole 128-bit blocks (two normals each).
+/// Bulk fills run vectorised kernels (AVX2 where the CPU has it) that produce bit-identical
+/// numbers on every path: the log and sin/cos are the library's own double-precision
+/// polynomials (detail/kernels.hpp), not the C library's, so a stream is the same on any CPU.
 class RandomStream {
  public:
   RandomStream(std::uint64_t seed, std::uint64_t stream, Substream substream) noexcept;
@@ -120,6 +123,10 @@ class RandomStream {
   /// Fills with circular complex Gaussian samples of total variance `variance`
   /// (variance/2 per real and imaginary part).
   void fill_complex_gaussian(std::span<cf32> out, double variance) noexcept;
+  /// out[i] = in[i] + sigma (g0 + j g1), one block (one Gaussian pair) per sample, the noise
+  /// rounded to float before the addition; in and out may be the same span. Draws the same
+  /// Gaussian pairs as fill_complex_gaussian.
+  void add_complex_noise(std::span<const cf32> in, std::span<cf32> out, double sigma) noexcept;
   /// Fills with uniformly random labels in [0, 2^bits), bits in 1..32.
   void fill_labels(std::span<std::uint32_t> out, unsigned bits) noexcept;
   /// Fills with random bits, one per byte (values 0 or 1).

@@ -1,0 +1,100 @@
+// kernels: hot inner loops behind plain scalar-typed functions, one implementation chosen at run time.
+//
+// Not part of the public API (detail/ is not installed). Every kernel exists in a portable C++
+// reference (kernels_portable.cpp, the library's default code generation) and, on x86-64, in an
+// AVX2 version (kernels_avx2.cpp, the only file compiled with -mavx2 -mfma). The table is chosen
+// once, on first use (a function-local static, so the choice is thread-safe), from the CPU's
+// cpuid bits via __builtin_cpu_supports, never per sample.
+//
+// Reproducibility contract: every path performs the same IEEE-754 operations in the same order
+// on every element (both kernel files are compiled with -ffp-contract=off, and no kernel uses a
+// fused multiply-add, so the portable path needs no slow software fma), so all paths produce
+// BIT-IDENTICAL random samples, sums and decisions. Counts therefore do not depend on the CPU a
+// sweep runs on. tests/cpp/test_kernels.cpp compares every compiled path against the portable
+// reference for exact equality.
+//
+// The Gaussian sequence is defined here, not by the C library: Box-Muller on
+//   u = (x + 1/2) 2^-64,  x the 64-bit word (w0 << 32) | w1 of a Philox block,
+//   t = (y >> 11) 2^-53 turns, y = (w2 << 32) | w3,
+//   (g0, g1) = sqrt(-2 ln u) (cos 2 pi t, sin 2 pi t),
+// with ln from detail::log_unit (fdlibm's argument reduction and minimax polynomial, relative
+// error below 1 ulp) and the trigonometric pair from an exact quadrant reduction of the integer
+// angle followed by fdlibm's sin/cos kernels on [-pi/4, pi/4] (below 1 ulp). The radial uniform
+// keeps 64-bit resolution near 0, so the largest radius is sqrt(-2 ln 2^-65) = 9.49 sigma and
+// the tail probability P(|g| > r) is right to one count of x far beyond 7 sigma (at r = 7 the
+// boundary x is 4.2e8, so the relative error of the tail is below 3e-9).
+#pragma once
+
+#include <cstddef>
+#include <cstdint>
+#include <span>
+
+namespace qamsight::detail {
+
+/// Philox starting point: counter words (word 0 is the block index, incremented per block, mod
+/// 2^32) and the key.
+struct PhiloxStart {
+  std::uint32_t counter[4];
+  std::uint32_t key[2];
+};
+
+/// One implementation of every kernel. All pointers are non-null unless stated; lengths count
+/// Philox blocks (`blocks`) or elements (`n`). No kernel allocates or throws.
+struct KernelTable {
+  const char* name;  ///< "portable" or "avx2"
+
+  /// out[4b + j] = word j of block b, shifted right by `shift` (0..31).
+  void (*philox_words)(const PhiloxStart& s, std::size_t blocks, unsigned shift, std::uint32_t* out);
+  /// out[4b + j] = (word j >> 8) 2^-24: uniform floats on [0, 1).
+  void (*philox_uniform_f32)(const PhiloxStart& s, std::size_t blocks, float* out);
+  /// out[2b], out[2b + 1] = the Gaussian pair of block b (double precision).
+  void (*gaussian_f64)(const PhiloxStart& s, std::size_t blocks, double* out);
+  /// The same pairs rounded to float.
+  void (*gaussian_f32)(const PhiloxStart& s, std::size_t blocks, float* out);
+  /// Complex noise, one block per complex sample: out[2b + k] = float(sigma * g_k), plus
+  /// in[2b + k] (float addition) when `in` is not null. in may equal out.
+  void (*noise_cf32)(const PhiloxStart& s, std::size_t blocks, double sigma, const float* in, float* out);
+
+  /// Table lookup: out[i] = table[labels[i] & mask] for complex float points (re, im pairs).
+  void (*map_labels)(const std::uint32_t* labels, std::size_t n, std::uint32_t mask, const float* table,
+                     float* out);
+  /// Square-QAM hard decisions, each axis independently: level index
+  ///   k = trunc(min(max((x * inv_half_spacing + levels) * 0.5f, 0), levels - 1))
+  /// (equal to floor of the level coordinate clamped to the constellation; NaN gives level 0),
+  /// label = (gray(k_i) << half_bits) | gray(k_q), gray(k) = k ^ (k >> 1).
+  void (*slice_square_qam)(const float* in, std::size_t n, float inv_half_spacing, unsigned levels,
+                           unsigned half_bits, std::uint32_t* labels);
+  /// Differences of two label streams: sum of popcount(a ^ b) and the number of i with a != b.
+  void (*count_label_errors)(const std::uint32_t* a, const std::uint32_t* b, std::size_t n,
+                             std::uint64_t* bit_errors, std::uint64_t* symbol_errors);
+  /// Error-vector sums in double over complex float samples: with e_i = |rx_i - ref_i|^2 and
+  /// p_i = |ref_i|^2 (each as dr*dr + di*di after widening to double), element i goes to lane
+  /// i % 4 of four partial sums, which are combined as (l0 + l1) + (l2 + l3) and added to
+  /// *error_power and *reference_power; *peak becomes the max of itself and every e_i.
+  void (*evm_sums)(const float* rx, const float* ref, std::size_t n, double* error_power,
+                   double* reference_power, double* peak);
+};
+
+/// The implementation chosen for this CPU (AVX2 when compiled in and the CPU has AVX2 and FMA,
+/// else portable). The environment variable QAMSIGHT_KERNELS=portable, read once at the first
+/// call, forces the portable reference (for testing that results do not depend on the CPU).
+const KernelTable& kernels() noexcept;
+/// The portable reference implementation.
+const KernelTable& portable_kernels() noexcept;
+/// Every implementation compiled in that this CPU can run, the portable one first.
+std::span<const KernelTable* const> available_kernels() noexcept;
+
+/// The scalar definitions shared by all paths (the portable file implements them; the vector
+/// code mirrors them operation by operation).
+/// ln u for u in (0, 1] (normal doubles).
+double log_unit(double u) noexcept;
+/// Gaussian pair from the four words of one Philox block.
+void gaussian_pair(std::uint32_t w0, std::uint32_t w1, std::uint32_t w2, std::uint32_t w3,
+                   double* g0, double* g1) noexcept;
+
+// Implementations, for the dispatcher (kernels_portable.cpp defines the table chooser).
+extern const KernelTable kPortableKernels;
+/// nullptr when the AVX2 file was compiled without AVX2 support (other architectures).
+const KernelTable* avx2_kernels_compiled() noexcept;
+
+}  // namespace qamsight::detail

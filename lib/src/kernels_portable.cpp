@@ -1,0 +1,262 @@
+// kernels_portable: the reference implementation of the hot kernels, and the run-time dispatcher.
+//
+// Compiled with the library's default code generation plus -ffp-contract=off (lib/CMakeLists.txt),
+// so that every a * b + c below is rounded twice, exactly as the AVX2 path computes it.
+#include <bit>
+#include <cmath>
+#include <cstdlib>
+#include <cstring>
+
+#include "qamsight/core.hpp"
+#include "qamsight/detail/kernels.hpp"
+
+namespace qamsight::detail {
+
+// ---------------------------------------------------------------------------------------------
+// The scalar definitions of the random-number transforms.
+
+namespace {
+
+// fdlibm / musl e_log.c constants (minimax polynomial for ln(1+f) in s = f / (2 + f)).
+constexpr double kLn2Hi = 6.93147180369123816490e-01;
+constexpr double kLn2Lo = 1.90821492927058770002e-10;
+constexpr double kLg1 = 6.666666666666735130e-01;
+constexpr double kLg2 = 3.999999999940941908e-01;
+constexpr double kLg3 = 2.857142874366239149e-01;
+constexpr double kLg4 = 2.222219843214978396e-01;
+constexpr double kLg5 = 1.818357216161805012e-01;
+constexpr double kLg6 = 1.531383769920937332e-01;
+constexpr double kLg7 = 1.479819860511658591e-01;
+
+// fdlibm k_sin.c / k_cos.c polynomial coefficients, valid on [-pi/4, pi/4].
+constexpr double kS1 = -1.66666666666666324348e-01;
+constexpr double kS2 = 8.33333333332248946124e-03;
+constexpr double kS3 = -1.98412698298579493134e-04;
+constexpr double kS4 = 2.75573137070700676789e-06;
+constexpr double kS5 = -2.50507602534068634195e-08;
+constexpr double kS6 = 1.58969099521155010221e-10;
+constexpr double kC1 = 4.16666666666666019037e-02;
+constexpr double kC2 = -1.38888888888741095749e-03;
+constexpr double kC3 = 2.48015872894767294178e-05;
+constexpr double kC4 = -2.75573143513906633035e-07;
+constexpr double kC5 = 2.08757232129817482790e-09;
+constexpr double kC6 = -1.13596475577881948265e-11;
+
+// 2 pi / 2^53: radians per unit of the 53-bit angle.
+constexpr double kAngleStep = 6.283185307179586232 * 0x1p-53;
+
+inline double sin_kernel(double x) noexcept {
+  const double z = x * x;
+  const double v = z * x;
+  const double r = kS2 + z * (kS3 + z * (kS4 + z * (kS5 + z * kS6)));
+  return x + v * (kS1 + z * r);
+}
+
+inline double cos_kernel(double x) noexcept {
+  const double z = x * x;
+  const double w = z * z;
+  const double r = z * (kC1 + z * (kC2 + z * kC3)) + w * w * (kC4 + z * (kC5 + z * kC6));
+  const double hz = 0.5 * z;
+  const double one_minus = 1.0 - hz;
+  return one_minus + (((1.0 - one_minus) - hz) + z * r);
+}
+
+}  // namespace
+
+double log_unit(double u) noexcept {
+  // u = 2^k m with m in [sqrt(2)/2, sqrt(2)): shift the exponent field so that the carry out of
+  // the mantissa decides k (musl's integer reduction, on the whole 64-bit pattern).
+  std::uint64_t ix = std::bit_cast<std::uint64_t>(u);
+  ix += std::uint64_t{0x3ff00000 - 0x3fe6a09e} << 32;
+  const auto kb = static_cast<std::int64_t>(ix >> 52);  // k + 1023
+  ix = (ix & 0x000fffffffffffffull) + (std::uint64_t{0x3fe6a09e} << 32);
+  const double m = std::bit_cast<double>(ix);
+  const double f = m - 1.0;
+  const double hfsq = 0.5 * f * f;
+  const double s = f / (2.0 + f);
+  const double z = s * s;
+  const double w = z * z;
+  const double t1 = w * (kLg2 + w * (kLg4 + w * kLg6));
+  const double t2 = z * (kLg1 + w * (kLg3 + w * (kLg5 + w * kLg7)));
+  const double r = t2 + t1;
+  const double dk = static_cast<double>(kb - 1023);
+  return s * (hfsq + r) + dk * kLn2Lo - hfsq + f + dk * kLn2Hi;
+}
+
+void gaussian_pair(std::uint32_t w0, std::uint32_t w1, std::uint32_t w2, std::uint32_t w3, double* g0,
+                   double* g1) noexcept {
+  const std::uint64_t x = (std::uint64_t{w0} << 32) | w1;
+  const std::uint64_t y53 = ((std::uint64_t{w2} << 32) | w3) >> 11;
+  // Radius: u in (0, 1], exact near 0 where the tail lives.
+  const double u = (static_cast<double>(x) + 0.5) * 0x1p-64;
+  const double radius = std::sqrt(-2.0 * log_unit(u));
+  // Angle y53 / 2^53 turns = j quarter turns + a, |a| <= pi/4, reduced exactly in integers.
+  const std::uint64_t j = (y53 + (std::uint64_t{1} << 50)) >> 51;  // 0..4
+  const auto rem = static_cast<std::int64_t>(y53) - static_cast<std::int64_t>(j << 51);
+  const double a = static_cast<double>(rem) * kAngleStep;
+  const double sa = sin_kernel(a), ca = cos_kernel(a);
+  double c = (j & 1u) ? sa : ca;
+  double s = (j & 1u) ? ca : sa;
+  if ((j + 1) & 2u) c = -c;  // quadrants 1 and 2
+  if (j & 2u) s = -s;        // quadrants 2 and 3
+  *g0 = radius * c;
+  *g1 = radius * s;
+}
+
+// ---------------------------------------------------------------------------------------------
+// Portable kernels.
+
+namespace {
+
+inline PhiloxCounter block_at(const PhiloxStart& s, std::size_t b) noexcept {
+  const PhiloxCounter c{s.counter[0] + static_cast<std::uint32_t>(b), s.counter[1], s.counter[2], s.counter[3]};
+  return philox4x32(c, PhiloxKey{s.key[0], s.key[1]});
+}
+
+void philox_words(const PhiloxStart& s, std::size_t blocks, unsigned shift, std::uint32_t* out) {
+  for (std::size_t b = 0; b < blocks; ++b) {
+    const auto w = block_at(s, b);
+    for (int j = 0; j < 4; ++j) out[4 * b + j] = w[j] >> shift;
+  }
+}
+
+void philox_uniform_f32(const PhiloxStart& s, std::size_t blocks, float* out) {
+  for (std::size_t b = 0; b < blocks; ++b) {
+    const auto w = block_at(s, b);
+    for (int j = 0; j < 4; ++j) out[4 * b + j] = static_cast<float>(w[j] >> 8) * 0x1p-24f;
+  }
+}
+
+void gaussian_f64(const PhiloxStart& s, std::size_t blocks, double* out) {
+  for (std::size_t b = 0; b < blocks; ++b) {
+    const auto w = block_at(s, b);
+    gaussian_pair(w[0], w[1], w[2], w[3], out + 2 * b, out + 2 * b + 1);
+  }
+}
+
+void gaussian_f32(const PhiloxStart& s, std::size_t blocks, float* out) {
+  for (std::size_t b = 0; b < blocks; ++b) {
+    const auto w = block_at(s, b);
+    double g0, g1;
+    gaussian_pair(w[0], w[1], w[2], w[3], &g0, &g1);
+    out[2 * b] = static_cast<float>(g0);
+    out[2 * b + 1] = static_cast<float>(g1);
+  }
+}
+
+void noise_cf32(const PhiloxStart& s, std::size_t blocks, double sigma, const float* in, float* out) {
+  for (std::size_t b = 0; b < blocks; ++b) {
+    const auto w = block_at(s, b);
+    double g0, g1;
+    gaussian_pair(w[0], w[1], w[2], w[3], &g0, &g1);
+    const float n0 = static_cast<float>(sigma * g0), n1 = static_cast<float>(sigma * g1);
+    if (in) {
+      out[2 * b] = in[2 * b] + n0;
+      out[2 * b + 1] = in[2 * b + 1] + n1;
+    } else {
+      out[2 * b] = n0;
+      out[2 * b + 1] = n1;
+    }
+  }
+}
+
+void map_labels(const std::uint32_t* labels, std::size_t n, std::uint32_t mask, const float* table, float* out) {
+  for (std::size_t i = 0; i < n; ++i) {
+    const std::uint32_t l = labels[i] & mask;
+    out[2 * i] = table[2 * l];
+    out[2 * i + 1] = table[2 * l + 1];
+  }
+}
+
+inline std::uint32_t axis_level_gray(float x, float inv, float fl, float top) noexcept {
+  float t = (x * inv + fl) * 0.5f;
+  t = t > 0.0f ? t : 0.0f;  // NaN -> 0, as the vector max does
+  t = t < top ? t : top;
+  const auto k = static_cast<std::uint32_t>(static_cast<std::int32_t>(t));
+  return k ^ (k >> 1);
+}
+
+void slice_square_qam(const float* in, std::size_t n, float inv, unsigned levels, unsigned half,
+                      std::uint32_t* labels) {
+  const auto fl = static_cast<float>(levels);
+  const auto top = static_cast<float>(levels - 1);
+  for (std::size_t i = 0; i < n; ++i) {
+    labels[i] = (axis_level_gray(in[2 * i], inv, fl, top) << half) | axis_level_gray(in[2 * i + 1], inv, fl, top);
+  }
+}
+
+void count_label_errors(const std::uint32_t* a, const std::uint32_t* b, std::size_t n, std::uint64_t* bit_errors,
+                        std::uint64_t* symbol_errors) {
+  std::uint64_t be = 0, se = 0;
+  for (std::size_t i = 0; i < n; ++i) {
+    const std::uint32_t d = a[i] ^ b[i];
+    be += static_cast<unsigned>(std::popcount(d));
+    se += d != 0;
+  }
+  *bit_errors = be;
+  *symbol_errors = se;
+}
+
+void evm_sums(const float* rx, const float* ref, std::size_t n, double* error_power, double* reference_power,
+              double* peak) {
+  double e[4] = {0, 0, 0, 0}, p[4] = {0, 0, 0, 0}, m[4] = {*peak, *peak, *peak, *peak};
+  for (std::size_t i = 0; i < n; ++i) {
+    const double xr = ref[2 * i], xi = ref[2 * i + 1];
+    const double dr = static_cast<double>(rx[2 * i]) - xr, di = static_cast<double>(rx[2 * i + 1]) - xi;
+    const double ei = dr * dr + di * di;
+    const std::size_t l = i % 4;
+    e[l] += ei;
+    p[l] += xr * xr + xi * xi;
+    m[l] = m[l] > ei ? m[l] : ei;
+  }
+  *error_power += (e[0] + e[1]) + (e[2] + e[3]);
+  *reference_power += (p[0] + p[1]) + (p[2] + p[3]);
+  const double m01 = m[0] > m[1] ? m[0] : m[1], m23 = m[2] > m[3] ? m[2] : m[3];
+  *peak = m01 > m23 ? m01 : m23;
+}
+
+}  // namespace
+
+const KernelTable kPortableKernels = {
+    "portable",       philox_words,       philox_uniform_f32, gaussian_f64, gaussian_f32, noise_cf32, map_labels,
+    slice_square_qam, count_label_errors, evm_sums,
+};
+
+const KernelTable& portable_kernels() noexcept { return kPortableKernels; }
+
+namespace {
+
+struct Dispatch {
+  const KernelTable* chosen = &kPortableKernels;
+  const KernelTable* list[2] = {&kPortableKernels, nullptr};
+  std::size_t count = 1;
+
+  Dispatch() {
+    const KernelTable* avx2 = avx2_kernels_compiled();
+#if defined(__x86_64__) || defined(__i386__)
+    if (avx2 && !(__builtin_cpu_supports("avx2") && __builtin_cpu_supports("fma"))) avx2 = nullptr;
+#else
+    avx2 = nullptr;
+#endif
+    if (avx2) list[count++] = avx2;
+    const char* force = std::getenv("QAMSIGHT_KERNELS");
+    const bool portable_only = force && std::strcmp(force, "portable") == 0;
+    chosen = (avx2 && !portable_only) ? avx2 : &kPortableKernels;
+  }
+};
+
+const Dispatch& dispatch() noexcept {
+  static const Dispatch d;  // initialised once, thread-safe (C++11 static initialisation)
+  return d;
+}
+
+}  // namespace
+
+const KernelTable& kernels() noexcept { return *dispatch().chosen; }
+
+std::span<const KernelTable* const> available_kernels() noexcept {
+  const Dispatch& d = dispatch();
+  return {d.list, d.count};
+}
+
+}  // namespace qamsight::detail

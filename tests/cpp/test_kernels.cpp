@@ -1,0 +1,264 @@
+// Tests of the dispatched kernels: every compiled path bit-identical to the portable reference,
+// the reference checked against the C library and the Philox known answers.
+#include <bit>
+#include <catch2/catch.hpp>
+#include <cmath>
+#include <cstring>
+#include <limits>
+#include <vector>
+
+#include "qamsight/core.hpp"
+#include "qamsight/detail/kernels.hpp"
+#include "qamsight/modem.hpp"
+#include "qamsight/sim.hpp"
+
+using namespace qamsight;
+using detail::KernelTable;
+using detail::PhiloxStart;
+
+namespace {
+
+template <class T>
+bool same_bits(const std::vector<T>& a, const std::vector<T>& b) {
+  return a.size() == b.size() && std::memcmp(a.data(), b.data(), a.size() * sizeof(T)) == 0;
+}
+
+// Starts that exercise the counter: ordinary, word 0 about to wrap (mod 2^32), odd keys.
+const PhiloxStart kStarts[] = {
+    {{0, 2, 7, 0}, {1, 0}},
+    {{0xfffffffau, 1, 0x12345678u, 0x9abcdef0u}, {0xdeadbeefu, 0x01234567u}},
+    {{12345, 16, 0xffffffffu, 3}, {0xffffffffu, 0xffffffffu}},
+};
+const std::size_t kBlockCounts[] = {0, 1, 7, 8, 9, 31, 1000, 4099};
+
+}  // namespace
+
+TEST_CASE("kernel dispatch: portable first, chosen table is one of the available ones", "[kernels]") {
+  const auto tables = detail::available_kernels();
+  REQUIRE(!tables.empty());
+  CHECK(tables[0] == &detail::portable_kernels());
+  bool found = false;
+  for (const KernelTable* t : tables) found = found || t == &detail::kernels();
+  CHECK(found);
+  WARN("kernels in use: " << detail::kernels().name << " (" << tables.size() << " available)");
+}
+
+TEST_CASE("portable Philox words equal philox4x32 (known-answer tested in test_core)", "[kernels]") {
+  const PhiloxStart s = kStarts[1];
+  std::vector<std::uint32_t> w(4 * 20);
+  detail::portable_kernels().philox_words(s, 20, 0, w.data());
+  for (std::uint32_t b = 0; b < 20; ++b) {
+    const auto ref = philox4x32({s.counter[0] + b, s.counter[1], s.counter[2], s.counter[3]}, {s.key[0], s.key[1]});
+    for (int j = 0; j < 4; ++j) REQUIRE(w[4 * b + j] == ref[j]);
+  }
+}
+
+TEST_CASE("every kernel path is bit-identical to the portable reference: random numbers", "[kernels]") {
+  const KernelTable& ref = detail::portable_kernels();
+  for (const KernelTable* k : detail::available_kernels()) {
+    INFO("path " << k->name);
+    for (const auto& s : kStarts) {
+      for (std::size_t blocks : kBlockCounts) {
+        INFO("blocks " << blocks);
+        for (unsigned shift : {0u, 1u, 26u, 31u}) {
+          std::vector<std::uint32_t> a(4 * blocks + 1, 7u), b(4 * blocks + 1, 7u);
+          ref.philox_words(s, blocks, shift, a.data());
+          k->philox_words(s, blocks, shift, b.data());
+          REQUIRE(a == b);  // including the untouched guard element
+        }
+        std::vector<float> ua(4 * blocks + 1, -1.0f), ub(4 * blocks + 1, -1.0f);
+        ref.philox_uniform_f32(s, blocks, ua.data());
+        k->philox_uniform_f32(s, blocks, ub.data());
+        REQUIRE(same_bits(ua, ub));
+        std::vector<double> ga(2 * blocks + 1, -1.0), gb(2 * blocks + 1, -1.0);
+        ref.gaussian_f64(s, blocks, ga.data());
+        k->gaussian_f64(s, blocks, gb.data());
+        REQUIRE(same_bits(ga, gb));
+        std::vector<float> fa(2 * blocks + 1, -1.0f), fb(2 * blocks + 1, -1.0f);
+        ref.gaussian_f32(s, blocks, fa.data());
+        k->gaussian_f32(s, blocks, fb.data());
+        REQUIRE(same_bits(fa, fb));
+        std::vector<float> in(2 * blocks + 1);
+        for (std::size_t i = 0; i < in.size(); ++i) in[i] = 0.25f * static_cast<float>(i % 7) - 0.75f;
+        for (double sigma : {1.0, 0.0316227766, 3.5e-5}) {
+          std::vector<float> na(2 * blocks + 1, -1.0f), nb(2 * blocks + 1, -1.0f);
+          ref.noise_cf32(s, blocks, sigma, in.data(), na.data());
+          k->noise_cf32(s, blocks, sigma, in.data(), nb.data());
+          REQUIRE(same_bits(na, nb));
+          ref.noise_cf32(s, blocks, sigma, nullptr, na.data());
+          k->noise_cf32(s, blocks, sigma, nullptr, nb.data());
+          REQUIRE(same_bits(na, nb));
+          std::vector<float> inplace = in;  // in == out is allowed
+          k->noise_cf32(s, blocks, sigma, inplace.data(), inplace.data());
+          ref.noise_cf32(s, blocks, sigma, in.data(), na.data());
+          REQUIRE(std::memcmp(inplace.data(), na.data(), 2 * blocks * sizeof(float)) == 0);
+        }
+      }
+    }
+  }
+}
+
+TEST_CASE("every kernel path is bit-identical to the portable reference: map, slice, count", "[kernels]") {
+  const KernelTable& ref = detail::portable_kernels();
+  RandomStream rs(99, 1, Substream::user);
+  for (const KernelTable* k : detail::available_kernels()) {
+    INFO("path " << k->name);
+    for (const auto& name : Constellation::builtin_names()) {
+      INFO(name);
+      const Constellation c = Constellation::from_name(name);
+      for (std::size_t n : {0u, 3u, 8u, 13u, 4096u}) {
+        std::vector<std::uint32_t> labels(n);
+        for (auto& l : labels) l = rs.next_u32();  // high bits set: the mask must apply
+        std::vector<float> a(2 * n + 2, 9.0f), b(2 * n + 2, 9.0f);
+        const auto* table = reinterpret_cast<const float*>(c.points_f().data());
+        ref.map_labels(labels.data(), n, c.order() - 1, table, a.data());
+        k->map_labels(labels.data(), n, c.order() - 1, table, b.data());
+        REQUIRE(same_bits(a, b));
+        if (c.family() != ConstellationFamily::square_qam) continue;
+        // Noisy points, decision boundaries exactly, far outside, signed zeros, NaN, infinities.
+        std::vector<float> x(2 * n);
+        for (auto& v : x) v = static_cast<float>(rs.gaussian() * 1.5);
+        const float d = static_cast<float>(c.qam_half_spacing());
+        const float specials[] = {0.0f, -0.0f, 2.0f * d, -2.0f * d, 1e30f, -1e30f,
+                                  std::numeric_limits<float>::quiet_NaN(), std::numeric_limits<float>::infinity(),
+                                  -std::numeric_limits<float>::infinity(), std::nextafter(2.0f * d, 0.0f)};
+        for (std::size_t i = 0; i < x.size() && i < 2 * std::size(specials); ++i) x[i] = specials[i % std::size(specials)];
+        const float inv = static_cast<float>(1.0 / c.qam_half_spacing());
+        std::vector<std::uint32_t> la(n + 1, 5u), lb(n + 1, 5u);
+        ref.slice_square_qam(x.data(), n, inv, c.levels_per_axis(), c.bits_per_symbol() / 2, la.data());
+        k->slice_square_qam(x.data(), n, inv, c.levels_per_axis(), c.bits_per_symbol() / 2, lb.data());
+        REQUIRE(la == lb);
+        for (std::size_t i = 0; i < n; ++i) {
+          const cf32 y(x[2 * i], x[2 * i + 1]);
+          if (std::isfinite(y.real()) && std::isfinite(y.imag()) && std::abs(y.real()) < 1e29f &&
+              std::abs(y.imag()) < 1e29f && i >= std::size(specials)) {
+            // Minimum distance by exhaustive search (independent of the axis formula).
+            REQUIRE(la[i] == c.slice_exhaustive(y));
+          }
+        }
+      }
+    }
+    for (std::size_t n : {0u, 1u, 3u, 4u, 9u, 4099u}) {
+      std::vector<float> rx(2 * n), tx(2 * n);
+      for (std::size_t i = 0; i < 2 * n; ++i) {
+        tx[i] = static_cast<float>(rs.uniform() * 2 - 1);
+        rx[i] = tx[i] + static_cast<float>(0.1 * rs.gaussian());
+      }
+      double e1 = 0.5, p1 = 0.25, m1 = 0.0, e2 = 0.5, p2 = 0.25, m2 = 0.0;
+      ref.evm_sums(rx.data(), tx.data(), n, &e1, &p1, &m1);
+      k->evm_sums(rx.data(), tx.data(), n, &e2, &p2, &m2);
+      REQUIRE(std::bit_cast<std::uint64_t>(e1) == std::bit_cast<std::uint64_t>(e2));
+      REQUIRE(std::bit_cast<std::uint64_t>(p1) == std::bit_cast<std::uint64_t>(p2));
+      REQUIRE(std::bit_cast<std::uint64_t>(m1) == std::bit_cast<std::uint64_t>(m2));
+      // Against a plain long double sum (independent of the lane order): relative 1e-12.
+      long double es = 0.5L, ps = 0.25L;
+      for (std::size_t i = 0; i < n; ++i) {
+        const long double dr = static_cast<long double>(rx[2 * i]) - tx[2 * i];
+        const long double di = static_cast<long double>(rx[2 * i + 1]) - tx[2 * i + 1];
+        es += dr * dr + di * di;
+        ps += static_cast<long double>(tx[2 * i]) * tx[2 * i] + static_cast<long double>(tx[2 * i + 1]) * tx[2 * i + 1];
+      }
+      CHECK(std::abs(e1 - static_cast<double>(es)) <= 1e-12 * static_cast<double>(es));
+      CHECK(std::abs(p1 - static_cast<double>(ps)) <= 1e-12 * static_cast<double>(ps));
+    }
+    for (std::size_t n : {0u, 1u, 7u, 8u, 100u, 65537u}) {
+      std::vector<std::uint32_t> a(n), b(n);
+      for (std::size_t i = 0; i < n; ++i) {
+        a[i] = rs.next_u32();
+        b[i] = (i % 3 == 0) ? a[i] : rs.next_u32();
+      }
+      std::uint64_t be_ref = 0, se_ref = 0;
+      for (std::size_t i = 0; i < n; ++i) {  // direct count, bit by bit
+        for (int j = 0; j < 32; ++j) be_ref += ((a[i] >> j) & 1u) != ((b[i] >> j) & 1u);
+        se_ref += a[i] != b[i];
+      }
+      std::uint64_t be = 1, se = 1;
+      k->count_label_errors(a.data(), b.data(), n, &be, &se);
+      CHECK(be == be_ref);
+      CHECK(se == se_ref);
+    }
+  }
+}
+
+TEST_CASE("the library's log and sin/cos agree with the C library to about 1 ulp", "[kernels]") {
+  // Reference: glibc's correctly rounded-or-nearly log/cos/sin in long double where available.
+  RandomStream rs(3, 3, Substream::user);
+  double worst_log = 0.0, worst_trig = 0.0;
+  for (int i = 0; i < 200000; ++i) {
+    const std::uint64_t x = rs.next_u64() >> (i % 64);
+    const double u = (static_cast<double>(x) + 0.5) * 0x1p-64;
+    const long double ref = std::log(static_cast<long double>(u));
+    const double got = detail::log_unit(u);
+    if (ref != 0.0L) {
+      const double ulp = std::abs(static_cast<double>(ref)) * 0x1p-52;
+      worst_log = std::max(worst_log, static_cast<double>(std::abs(got - ref)) / ulp);
+    } else {
+      REQUIRE(got == 0.0);
+    }
+    const auto b = rs.next_block();
+    double g0, g1;
+    detail::gaussian_pair(b[0], b[1], b[2], b[3], &g0, &g1);
+    const long double r = std::sqrt(-2.0L * std::log(static_cast<long double>(
+                                                (static_cast<double>((std::uint64_t{b[0]} << 32) | b[1]) + 0.5) * 0x1p-64)));
+    const long double t = static_cast<long double>(((std::uint64_t{b[2]} << 32) | b[3]) >> 11) * 0x1p-53L;
+    const long double theta = t * 2.0L * 3.14159265358979323846264338327950288L;
+    const double e0 = static_cast<double>(std::abs(g0 - r * std::cos(theta)));
+    const double e1 = static_cast<double>(std::abs(g1 - r * std::sin(theta)));
+    worst_trig = std::max(worst_trig, std::max(e0, e1) / (static_cast<double>(r) * 0x1p-52));
+  }
+  INFO("worst log error " << worst_log << " ulp, worst Gaussian error " << worst_trig << " ulp of the radius");
+  CHECK(worst_log <= 1.0);
+  CHECK(worst_trig <= 4.0);
+  CHECK(detail::log_unit(1.0) == 0.0);
+  // u = 2^-65: ln = -65 ln 2 (mpmath: -45.054532... ; here against the long double log).
+  CHECK(std::abs(detail::log_unit(0x1p-65) - static_cast<double>(std::log(0x1p-65L))) <= 0x1p-52 * 45.06);
+}
+
+TEST_CASE("RandomStream bulk fills continue the word stream exactly (mid-block starts)", "[kernels]") {
+  for (int skip : {0, 1, 2, 3, 5}) {
+    RandomStream ref(8, 5, Substream::payload), bulk(8, 5, Substream::payload);
+    for (int i = 0; i < skip; ++i) {
+      (void)ref.next_u32();
+      (void)bulk.next_u32();
+    }
+    std::vector<std::uint32_t> expect(1003), got(1003);
+    for (auto& v : expect) v = ref.next_u32() >> 26;
+    bulk.fill_labels(got, 6);
+    REQUIRE(expect == got);
+    CHECK(ref.next_u32() == bulk.next_u32());
+    std::vector<float> ue(77), ug(77);
+    for (auto& v : ue) v = static_cast<float>(ref.next_u32() >> 8) * 0x1p-24f;
+    bulk.fill_uniform(ug);
+    REQUIRE(same_bits(ue, ug));
+  }
+  // fill_gaussian draws block by block, as box_muller on next_block does.
+  RandomStream a(4, 4, Substream::awgn), b(4, 4, Substream::awgn);
+  std::vector<double> g(101);
+  a.fill_gaussian(std::span<double>(g));
+  for (std::size_t i = 0; i < g.size(); i += 2) {
+    const auto w = b.next_block();
+    const auto p = box_muller(w[0], w[1], w[2], w[3]);
+    REQUIRE(std::bit_cast<std::uint64_t>(g[i]) == std::bit_cast<std::uint64_t>(p[0]));
+    if (i + 1 < g.size()) REQUIRE(std::bit_cast<std::uint64_t>(g[i + 1]) == std::bit_cast<std::uint64_t>(p[1]));
+  }
+}
+
+TEST_CASE("vectorised sweep: counts and EVM sums identical for 1 and 2 threads", "[kernels]") {
+  SweepConfig c;
+  c.modulations = {"64qam", "256qam"};
+  c.snr_db = {12.0, 16.0};
+  c.stop.min_bit_errors = 200;
+  c.stop.max_bits = 2'000'000;
+  c.seed = 5;
+  c.link.frame_symbols = 1000;  // not a multiple of the 8-lane kernels: exercises the tails
+  c.threads = 1;
+  const SweepResult one = run_sweep(c);
+  c.threads = 2;
+  const SweepResult two = run_sweep(c);
+  REQUIRE(one.points.size() == two.points.size());
+  for (std::size_t i = 0; i < one.points.size(); ++i) {
+    CHECK(one.points[i].counts == two.points[i].counts);
+    CHECK(std::bit_cast<std::uint64_t>(one.points[i].evm.error_power) ==
+          std::bit_cast<std::uint64_t>(two.points[i].evm.error_power));
+  }
+}

@@ -15,11 +15,7 @@ void AwgnChannel::process(RandomStream& rng, std::span<const cf32> in, std::span
   QAMSIGHT_ASSERT(out.size() >= in.size(), "output shorter than input");
   const double sigma = std::sqrt(n0_ / 2.0);
   rng.seek_block(rng.block_index());  // bulk draws start at a block boundary
-  for (std::size_t i = 0; i < in.size(); ++i) {
-    const auto b = rng.next_block();
-    const auto g = box_muller(b[0], b[1], b[2], b[3]);
-    out[i] = in[i] + cf32(static_cast<float>(sigma * g[0]), static_cast<float>(sigma * g[1]));
-  }
+  rng.add_complex_noise(in, out.first(in.size()), sigma);  // vectorised kernel, same numbers on any CPU
 }
 
 }  // namespace qamsight

@@ -132,6 +132,7 @@ std::string fmt_sci(double v, int digits) {
 
 }  // namespace qamsight::cli
 
+#include <filesystem>
 #include <map>
 
 #include "qamsight/io.hpp"
@@ -146,6 +147,16 @@ void rethrow_with_option_names(const ConfigError& e) {
       {"confidence", "--confidence"},   {"threads", "--threads"},
       {"frame_symbols", "--frame-symbols"}, {"impl_loss_db", "--impl-loss-db"},
       {"max_relative_width", "--max-rel-width"}, {"target_ber", "--target-ber"},
+      {"samples_per_symbol", "--sps"},  {"roll_off", "--rolloff"},
+      {"span_symbols", "--span"},       {"symbol_rate_hz", "--symbol-rate"},
+      {"linewidth_hz", "--phase-noise-linewidth"}, {"offset_hz", "--cfo-hz"},
+      {"rotation_deg", "--phase-deg"},  {"gain_db", "--iq-gain-db"},
+      {"phase_deg", "--iq-phase-deg"},  {"input_backoff_db", "--input-backoff-db"},
+      {"smoothness", "--rapp-smoothness"}, {"bits", "--adc-bits"},
+      {"loading_db", "--adc-loading-db"}, {"tracker_bandwidth", "--tracker-bandwidth"},
+      {"pilot_period", "--pilot-period"}, {"offset", "--dc-offset"},
+      {"delay_samples", "--multipath"}, {"taps", "--multipath"},
+      {"sample_rate_hz", "--symbol-rate"},
   };
   const auto it = names.find(e.parameter());
   if (it == names.end()) throw e;
@@ -156,6 +167,33 @@ void write_output(const std::string& path, const std::string& content, const cha
   std::fflush(stdout);  // keep the table ahead of the file notes when both go to one place
   write_text_file_atomic(path, content);
   std::fprintf(stderr, "qamsight: wrote %s %s\n", what, path.c_str());
+}
+
+
+namespace {
+void require_output_path(const std::string& option, const std::string& path) {
+  if (path.empty()) return;
+  namespace fs = std::filesystem;
+  const fs::path target(path);
+  const fs::path dir = target.has_parent_path() ? target.parent_path() : fs::path(".");
+  std::error_code ec;
+  std::string problem;
+  if (!target.has_filename()) {
+    problem = "it names no file";
+  } else if (fs::is_directory(target, ec)) {
+    problem = "'" + path + "' is a folder";
+  } else if (!fs::is_directory(dir, ec)) {
+    problem = fs::exists(dir, ec) ? "'" + dir.string() + "' is not a folder" : "folder '" + dir.string() + "' does not exist";
+  }
+  if (!problem.empty()) {
+    throw UsageError(option + " = '" + path + "' is not allowed; allowed: a file name in an existing folder (" +
+                     problem + ")");
+  }
+}
+}  // namespace
+
+void require_output_paths(std::initializer_list<std::pair<const char*, const std::string&>> outputs) {
+  for (const auto& [option, path] : outputs) require_output_path(option, path);
 }
 
 }  // namespace qamsight::cli

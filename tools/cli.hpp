@@ -68,4 +68,8 @@ namespace qamsight::cli {
 [[noreturn]] void rethrow_with_option_names(const ConfigError& e);
 /// Writes a text output file atomically and reports it on stderr.
 void write_output(const std::string& path, const std::string& content, const char* what);
+/// Checks before any work or output that each non-empty path (the value of its option) can become
+/// an output file: its folder exists and it is not a folder itself. UsageError otherwise, so a
+/// failed run leaves no partial set of outputs.
+void require_output_paths(std::initializer_list<std::pair<const char*, const std::string&>> outputs);
 }  // namespace qamsight::cli

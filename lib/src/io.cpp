@@ -14,6 +14,8 @@
 #include <random>
 #include <sstream>
 
+#include "sweep_settings.hpp"
+
 namespace qamsight {
 
 using nlohmann::ordered_json;
@@ -69,8 +71,6 @@ namespace {
 
 ordered_json number(double v) { return std::isfinite(v) ? ordered_json(v) : ordered_json(nullptr); }
 
-const char* snr_kind_name(SnrKind k) { return k == SnrKind::eb_n0 ? "eb_n0" : "es_n0"; }
-
 ordered_json point_json(const PointResult& p) {
   ordered_json j;
   j["modulation"] = p.spec.modulation;
@@ -94,6 +94,7 @@ ordered_json point_json(const PointResult& p) {
   j["ber_theory"] = number(p.ber_theory);
   j["ser_theory"] = number(p.ser_theory);
   j["evm_rms_pct"] = number(p.evm.rms_percent());
+  j["isi_loss_db"] = number(p.isi_loss_db);
   j["mer_db"] = number(p.evm.mer_db());
   j["stop_reason"] = p.stop_reason;
   j["seconds"] = p.seconds;
@@ -107,13 +108,8 @@ std::string sweep_to_json(const SweepResult& r) {
   j["program"] = "qamsight";
   j["version"] = std::string(version());
   j["kind"] = "sweep";
-  j["seed"] = r.config.seed;
-  j["confidence"] = r.config.confidence;
-  j["snr_kind"] = snr_kind_name(r.config.snr_kind);
-  j["stop_rule"] = {{"min_errors", r.config.stop.min_bit_errors},
-                    {"max_bits", r.config.stop.max_bits},
-                    {"max_relative_width", r.config.stop.max_relative_width}};
-  j["link"] = {{"frame_symbols", r.config.link.frame_symbols}, {"impl_loss_db", r.config.link.impl_loss_db}};
+  const ordered_json settings = detail::sweep_settings_json(r.config);
+  for (const char* key : {"seed", "confidence", "snr_kind", "stop_rule", "link"}) j[key] = settings.at(key);
   j["complete"] = r.complete;
   j["points"] = ordered_json::array();
   for (const auto& p : r.points) j["points"].push_back(point_json(p));
@@ -177,7 +173,7 @@ SweepResult sweep_from_json(std::string_view text, const std::string& source) {
   ordered_json j;
   try {
     j = ordered_json::parse(text);
-  } catch (const ordered_json::parse_error& e) {
+  } catch (const ordered_json::exception& e) {  // parse_error, and out_of_range for 1e999
     throw InputError(source + ": not valid JSON (" + e.what() + ")");
   }
   if (!j.is_object()) throw InputError(source + ": top level must be a JSON object");
@@ -202,6 +198,12 @@ SweepResult sweep_from_json(std::string_view text, const std::string& source) {
     const auto& mod = member(p, "modulation", source, where);
     if (!mod.is_string()) throw InputError(source + ": key '" + where + "modulation' must be a string");
     spec.modulation = mod.get<std::string>();
+    try {
+      (void)Constellation::from_name(spec.modulation);
+    } catch (const ConfigError& e) {
+      throw InputError(source + ": key '" + where + "modulation' = '" + spec.modulation + "' is not allowed; allowed: " +
+                       e.allowed());
+    }
     spec.eb_n0_db = real_of(p, "eb_n0_db", source, where);
     spec.es_n0_db = real_of(p, "es_n0_db", source, where);
     PointState st;

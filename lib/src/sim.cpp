@@ -9,10 +9,14 @@
 #include <cstring>
 #include <limits>
 #include <mutex>
+#include <optional>
 #include <thread>
 
 #include "qamsight/channel.hpp"
+#include "qamsight/detail/kernels.hpp"
+#include "qamsight/pulse.hpp"
 #include "qamsight/theory.hpp"
+#include "sim_links.hpp"
 
 namespace qamsight {
 
@@ -53,10 +57,7 @@ void validate(const SweepConfig& c) {
     throw ConfigError("confidence", format_number(c.confidence), "strictly between 0 and 1");
   }
   if (c.threads > 4096) throw ConfigError("threads", std::to_string(c.threads), "0 (all cores) to 4096");
-  if (c.link.frame_symbols < 16 || c.link.frame_symbols > (std::size_t{1} << 22)) {
-    throw ConfigError("frame_symbols", std::to_string(c.link.frame_symbols), "16 to 4194304");
-  }
-  require_range("impl_loss_db", c.link.impl_loss_db, 0.0, 60.0);
+  validate(c.link);
 }
 
 std::vector<PointSpec> sweep_points(const SweepConfig& c) {
@@ -80,6 +81,15 @@ std::vector<PointSpec> sweep_points(const SweepConfig& c) {
     }
   }
   return out;
+}
+
+double isi_loss_db(const LinkConfig& link, double es_n0_db) {
+  if (link.pulse.samples_per_symbol <= 1) return 0.0;
+  PulseSpec p;
+  p.roll_off = link.pulse.roll_off;
+  p.span_symbols = link.pulse.span_symbols;
+  p.samples_per_symbol = link.pulse.samples_per_symbol;
+  return linear_to_db(1.0 + matched_cascade_isi_power(p) * db_to_linear(es_n0_db));
 }
 
 std::uint64_t batch_frames(std::uint64_t batch_index) noexcept {
@@ -123,15 +133,43 @@ class SymbolRateRunner final : public FrameRunner {
         rx_labels_(link.frame_symbols_),
         tx_(link.frame_symbols_),
         rx_(link.frame_symbols_) {
-    if (link.stage_) {
-      const std::size_t bits = link.frame_symbols_ * link.constellation_.bits_per_symbol();
-      stage_symbols_.resize(link.frame_symbols_);
-      stage_llrs_.resize(bits);
-      stage_bits_.resize(bits);
-    }
+    if (link.stage_) stage_.emplace(*link.stage_, link.stage_mutex_, link.constellation_, link.frame_symbols_);
   }
 
   void run(std::uint64_t frame, FrameResult& out) override {
+    const auto& c = link_.constellation_;
+    simulate(frame);
+    std::span<const cf32> evm_symbols = rx_;
+    if (stage_) {
+      StageInput in;
+      in.frame = frame;
+      in.samples = rx_;
+      in.symbols = rx_;
+      in.samples_per_symbol = 1;
+      in.noise_variance = link_.awgn_.noise_variance();
+      in.constellation = &c;
+      stage_->call(in, rx_labels_);
+      if (stage_->returns_symbols()) evm_symbols = stage_->decision_symbols();
+    } else {
+      c.slice(rx_, rx_labels_);
+    }
+    out = FrameResult{};
+    detail::count_label_errors(tx_labels_, rx_labels_, c.bits_per_symbol(), out.counts);
+    out.counts.frames = 1;
+    out.counts.frame_errors = out.counts.bit_errors != 0;
+    out.evm.add(evm_symbols, tx_);
+  }
+
+  void capture(std::uint64_t frame, std::vector<cf32>& transmitted, std::vector<cf32>& received) override {
+    simulate(frame);
+    transmitted.insert(transmitted.end(), tx_.begin(), tx_.end());
+    received.insert(received.end(), rx_.begin(), rx_.end());
+  }
+
+  double decision_noise_variance() const override { return link_.awgn_.noise_variance(); }
+
+ private:
+  void simulate(std::uint64_t frame) {
     const auto& c = link_.constellation_;
     const std::uint64_t stream = frame_stream(link_.key_, frame);
     RandomStream payload(link_.seed_, stream, Substream::payload);
@@ -139,70 +177,12 @@ class SymbolRateRunner final : public FrameRunner {
     c.map_labels(tx_labels_, tx_);
     RandomStream noise(link_.seed_, stream, Substream::awgn);
     link_.awgn_.process(noise, tx_, rx_);
-    if (link_.stage_) {
-      run_stage(frame);
-    } else {
-      c.slice(rx_, rx_labels_);
-    }
-    std::uint64_t bit_errors = 0, symbol_errors = 0;
-    for (std::size_t i = 0; i < tx_labels_.size(); ++i) {
-      const std::uint32_t diff = tx_labels_[i] ^ rx_labels_[i];
-      bit_errors += static_cast<unsigned>(std::popcount(diff));
-      symbol_errors += diff != 0;
-    }
-    out = FrameResult{};
-    out.counts.bits = tx_labels_.size() * c.bits_per_symbol();
-    out.counts.bit_errors = bit_errors;
-    out.counts.symbols = tx_labels_.size();
-    out.counts.symbol_errors = symbol_errors;
-    out.counts.frames = 1;
-    out.counts.frame_errors = bit_errors != 0;
-    out.evm.add(link_.stage_ && link_.stage_->output == StageOutputKind::symbols ? stage_symbols_ : rx_, tx_);
-  }
-
- private:
-  // Hands the received frame to the user stage and turns its output into decided labels.
-  void run_stage(std::uint64_t frame) {
-    const auto& c = link_.constellation_;
-    const UserStage& st = *link_.stage_;
-    StageInput in;
-    in.frame = frame;
-    in.samples = rx_;
-    in.symbols = rx_;
-    in.samples_per_symbol = 1;
-    in.noise_variance = link_.awgn_.noise_variance();
-    in.constellation = &c;
-    StageOutput out;
-    out.symbols = stage_symbols_;
-    out.llrs = stage_llrs_;
-    out.bits = stage_bits_;
-    if (st.serialise) {
-      std::lock_guard lock(link_.stage_mutex_);
-      st.process(in, out);
-    } else {
-      st.process(in, out);
-    }
-    switch (st.output) {
-      case StageOutputKind::symbols:
-        c.slice(stage_symbols_, rx_labels_);
-        break;
-      case StageOutputKind::llrs:
-        for (std::size_t i = 0; i < stage_bits_.size(); ++i) stage_bits_[i] = stage_llrs_[i] < 0.0f ? 1 : 0;
-        c.bits_to_labels(stage_bits_, rx_labels_);
-        break;
-      case StageOutputKind::bits:
-        for (std::size_t i = 0; i < stage_bits_.size(); ++i) stage_bits_[i] &= 1u;
-        c.bits_to_labels(stage_bits_, rx_labels_);
-        break;
-    }
   }
 
   const SymbolRateLink& link_;
   std::vector<std::uint32_t> tx_labels_, rx_labels_;
   std::vector<cf32> tx_, rx_;
-  std::vector<cf32> stage_symbols_;
-  std::vector<float> stage_llrs_;
-  std::vector<std::uint8_t> stage_bits_;
+  std::optional<detail::StageCaller> stage_;
 };
 
 std::unique_ptr<FrameRunner> SymbolRateLink::make_runner() const {
@@ -211,9 +191,72 @@ std::unique_ptr<FrameRunner> SymbolRateLink::make_runner() const {
 
 }  // namespace
 
+namespace {
+std::atomic<std::uint64_t> g_next_link_id{1};
+}  // namespace
+
+Link::Link() noexcept : instance_id_(g_next_link_id.fetch_add(1)) {}
+
 std::unique_ptr<Link> make_link(const LinkConfig& link, const PointSpec& point, std::uint64_t seed) {
+  if (link.waveform()) return detail::make_waveform_link(link, point, seed);
   return std::make_unique<SymbolRateLink>(link, point, seed);
 }
+
+void FrameRunner::capture(std::uint64_t, std::vector<cf32>&, std::vector<cf32>&) {
+  throw ConfigError("link", "a link without symbol capture", "the built-in links");
+}
+
+namespace detail {
+
+StageCaller::StageCaller(const UserStage& stage, std::mutex& mutex, const Constellation& constellation,
+                         std::size_t symbols)
+    : stage_(stage), mutex_(mutex), constellation_(constellation) {
+  const std::size_t bits = symbols * constellation.bits_per_symbol();
+  switch (stage.output) {
+    case StageOutputKind::symbols: symbols_.resize(symbols); break;
+    case StageOutputKind::llrs: llrs_.resize(bits), bits_.resize(bits); break;
+    case StageOutputKind::bits: bits_.resize(bits); break;
+  }
+}
+
+void StageCaller::call(const StageInput& input, std::span<std::uint32_t> labels) {
+  StageOutput out;
+  out.symbols = symbols_;
+  out.llrs = llrs_;
+  out.bits = bits_;
+  if (stage_.serialise) {
+    std::lock_guard lock(mutex_);
+    stage_.process(input, out);
+  } else {
+    stage_.process(input, out);
+  }
+  switch (stage_.output) {
+    case StageOutputKind::symbols:
+      constellation_.slice(symbols_, labels);
+      break;
+    case StageOutputKind::llrs:
+      for (std::size_t i = 0; i < bits_.size(); ++i) bits_[i] = llrs_[i] < 0.0f ? 1 : 0;
+      constellation_.bits_to_labels(bits_, labels);
+      break;
+    case StageOutputKind::bits:
+      for (auto& b : bits_) b &= 1u;
+      constellation_.bits_to_labels(bits_, labels);
+      break;
+  }
+}
+
+void count_label_errors(std::span<const std::uint32_t> tx, std::span<const std::uint32_t> rx, unsigned bits,
+                        ErrorCounts& out) noexcept {
+  QAMSIGHT_ASSERT(tx.size() == rx.size(), "label spans differ in length");
+  std::uint64_t bit_errors = 0, symbol_errors = 0;  // popcount of tx ^ rx, vectorised (kernels.hpp)
+  kernels().count_label_errors(tx.data(), rx.data(), tx.size(), &bit_errors, &symbol_errors);
+  out.bits += tx.size() * bits;
+  out.bit_errors += bit_errors;
+  out.symbols += tx.size();
+  out.symbol_errors += symbol_errors;
+}
+
+}  // namespace detail
 
 // ---------------------------------------------------------------------------------------------
 // Thread pool executor. The caller's thread takes part; workers pick frames from an atomic
@@ -238,10 +281,12 @@ class ThreadExecutor final : public FrameExecutor {
 
   void run(const Link& link, std::size_t /*point*/, std::uint64_t first,
            std::span<FrameResult> out) override {
-    if (&link != current_link_) {
+    if (link.instance_id() != current_link_id_) {
+      // Runners are bound to their link (and copy its settings): make new ones.
       for (auto& r : runners_) r.reset();
-      current_link_ = &link;
+      current_link_id_ = link.instance_id();
     }
+    current_link_ = &link;
     {
       std::lock_guard lock(mutex_);
       job_first_ = first;
@@ -288,6 +333,7 @@ class ThreadExecutor final : public FrameExecutor {
   std::vector<std::unique_ptr<FrameRunner>> runners_;
   std::vector<std::thread> workers_;
   const Link* current_link_ = nullptr;
+  std::uint64_t current_link_id_ = 0;
   std::mutex mutex_;
   std::condition_variable wake_, done_;
   std::uint64_t generation_ = 0;
@@ -412,6 +458,7 @@ SweepResult run_sweep(const SweepConfig& config, const SweepHooks& hooks) {
       }
     }
     PointResult r = make_point_result(spec, state, config.confidence);
+    r.isi_loss_db = isi_loss_db(config.link, spec.es_n0_db);
     r.seconds = std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
     if (!state.done) {
       result.complete = false;

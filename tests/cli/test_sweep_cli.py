@@ -128,3 +128,59 @@ def test_check_rejects_bad_baselines(cli):
         open(bad, "w").write(content)
         res = cli.run("check", good, "--baseline", bad)
         assert res.returncode == 2 and needle in res.stderr, res.stderr
+
+
+def test_oversampled_sweep_follows_theory_and_reports_isi_loss(cli):
+    doc, path = cli.sweep_json("--mod", "qpsk,16qam", "--ebn0", "4,8", "--sps", "4", "--rolloff", "0.25",
+                               "--span", "24", "--min-errors", "200", "--seed", "5")
+    assert doc["link"]["samples_per_symbol"] == 4 and doc["link"]["span_symbols"] == 24
+    cli.run("check", path, check=0)
+    short, _ = cli.sweep_json("--mod", "16qam", "--esn0", "20", "--sps", "4", "--rolloff", "0.25", "--span", "4",
+                              "--max-bits", "2e5", name="short.json")
+    assert short["points"][0]["isi_loss_db"] > 0.05
+
+
+def test_impairments_are_recorded_in_the_json(cli, tmp_path):
+    mask = tmp_path / "mask.csv"
+    mask.write_text("# offset_hz,dbc_hz\n1e3,-80\n1e4,-90\n1e5,-110\n")
+    doc, _ = cli.sweep_json("--mod", "16qam", "--esn0", "18", "--sps", "4", "--symbol-rate", "1e6",
+                            "--phase-noise-mask", str(mask), "--cfo-hz", "50", "--iq-gain-db", "0.2",
+                            "--iq-phase-deg", "1", "--amp", "rapp", "--input-backoff-db", "8", "--adc-bits", "10",
+                            "--max-bits", "2e5")
+    im = doc["link"]["impairments"]
+    assert im["amplifier"] == "rapp" and im["input_backoff_db"] == 8 and im["adc_bits"] == 10
+    assert im["cfo_hz"] == 50 and im["phase_tracker"] is True
+    assert [p[0] for p in im["phase_noise_mask"]] == [1e3, 1e4, 1e5]
+
+
+WAVEFORM_BAD = [
+    (["--sps", "4", "--rolloff", "1.5"], "--rolloff"),
+    (["--sps", "4", "--rolloff", "0"], "--rolloff"),
+    (["--sps", "4", "--span", "2"], "--span"),
+    (["--sps", "4", "--rolloff", "0.1", "--span", "6"], "--span"),
+    (["--sps", "4", "--phase-noise-linewidth", "-1"], "--phase-noise-linewidth"),
+    (["--sps", "4", "--input-backoff-db", "100", "--amp", "saleh"], "--input-backoff-db"),
+    (["--sps", "4", "--adc-bits", "0"], "--adc-bits"),
+    (["--sps", "4", "--amp", "tube"], "--amp"),
+    (["--sps", "4", "--multipath", "0:1"], "--multipath"),
+    (["--sps", "4", "--symbol-rate", "0", "--cfo-hz", "10"], "--symbol-rate"),
+]
+
+
+@pytest.mark.parametrize("extra,needle", WAVEFORM_BAD, ids=[" ".join(a) for a, _ in WAVEFORM_BAD])
+def test_bad_waveform_options_exit_2(cli, extra, needle):
+    res = cli.run("sweep", "--mod", "qpsk", "--ebn0", "4", *extra)
+    assert res.returncode == 2, res.stdout + res.stderr
+    assert len(res.stderr.strip().splitlines()) == 1 and needle in res.stderr, res.stderr
+
+
+@pytest.mark.parametrize("content,needle", [("1e3,-80\n", "at least 2"),
+                                           ("1e4,-80\n1e3,-90\n", "greater than the previous"),
+                                           ("1e3,abc\n1e4,-90\n", "m.csv:1")])
+def test_bad_phase_noise_masks_exit_2(cli, tmp_path, content, needle):
+    mask = tmp_path / "m.csv"
+    mask.write_text(content)
+    res = cli.run("sweep", "--mod", "qpsk", "--ebn0", "4", "--sps", "4", "--phase-noise-mask", str(mask))
+    assert res.returncode == 2
+    assert "m.csv" in res.stderr or "mask" in res.stderr, res.stderr
+    assert needle in res.stderr.lower(), res.stderr

@@ -9,6 +9,7 @@
 #include <string>
 #include <vector>
 
+#include "qamsight/channel.hpp"
 #include "qamsight/measure.hpp"
 #include "qamsight/modem.hpp"
 
@@ -39,15 +40,28 @@ class FrameRunner {
  public:
   virtual ~FrameRunner() = default;
   virtual void run(std::uint64_t frame, FrameResult& out) = 0;
+  /// Appends the frame's transmitted and decision-point symbols (the ones run() counts), for
+  /// EVM analysis. The built-in links implement it; the default throws ConfigError.
+  virtual void capture(std::uint64_t frame, std::vector<cf32>& transmitted, std::vector<cf32>& received);
+  /// Noise variance at the decision point of the last frame run or captured (N0 scaled by the
+  /// receiver's gain control).
+  virtual double decision_noise_variance() const { return 0.0; }
 };
 
 /// A link at one operating point: immutable, shared by threads, makes per-thread runners.
 class Link {
  public:
+  Link() noexcept;
   virtual ~Link() = default;
+  /// Unique for every Link object ever made in the process, so executors can tell a new link
+  /// from an old one at the same address.
+  std::uint64_t instance_id() const noexcept { return instance_id_; }
   virtual std::unique_ptr<FrameRunner> make_runner() const = 0;
   /// Information bits per frame (what ErrorCounts::bits grows by).
   virtual std::uint64_t bits_per_frame() const = 0;
+
+ private:
+  std::uint64_t instance_id_;
 };
 
 /// What a user receiver stage gets for one frame. Spans stay valid for the call only.
@@ -84,15 +98,70 @@ struct UserStage {
   std::string name = "user stage";
 };
 
+/// Pulse shaping of the waveform link: root-raised-cosine transmit filter and its matched
+/// filter. samples_per_symbol = 1 selects the symbol-rate link (no filters) unless impairments
+/// are set, in which case the impairments act on the symbols themselves.
+struct PulseShapingConfig {
+  int samples_per_symbol = 1;  ///< 1 to 64
+  double roll_off = 0.25;      ///< 0 < beta <= 1
+  int span_symbols = 12;       ///< even, 4 to 256, span * roll-off >= 1 (see PulseSpec)
+};
+
+enum class AmplifierKind { none, saleh, rapp };
+enum class TrackerMode { automatic, off, on };
+
+/// RF impairments of the waveform link. They act in this order:
+///   transmitter: IQ imbalance and DC offset (the modulator), then the amplifier;
+///   propagation: static multipath, carrier frequency offset and static rotation, phase noise;
+///   receiver: AWGN, quantiser (ADC), matched filter, automatic gain control, phase tracker.
+/// Hz values are meaningful through symbol_rate_hz (sample rate = symbol rate x sps).
+struct ImpairmentConfig {
+  double symbol_rate_hz = 1.0e6;  ///< > 0, at most 1e12
+  double iq_gain_db = 0.0;        ///< Q/I amplitude ratio (modulator)
+  double iq_phase_deg = 0.0;      ///< quadrature error (modulator)
+  cf64 dc_offset{0.0, 0.0};       ///< carrier leakage, relative to the RMS signal amplitude
+  AmplifierKind amplifier = AmplifierKind::none;
+  double input_backoff_db = 6.0;  ///< amplifier input back-off from saturation
+  double rapp_smoothness = 2.0;   ///< p of the Rapp model
+  std::vector<MultipathTap> multipath;  ///< sample-spaced taps; empty = none
+  double cfo_hz = 0.0;            ///< carrier frequency offset
+  double phase_deg = 0.0;         ///< static carrier phase rotation
+  double phase_noise_linewidth_hz = 0.0;  ///< Wiener phase noise (3-dB linewidth); 0 = none
+  std::shared_ptr<const PhaseNoiseMask> phase_noise_mask;  ///< stationary phase noise; null = none
+  unsigned adc_bits = 0;          ///< 0 = ideal receiver front end; else 1 to 24
+  double adc_loading_db = 12.0;   ///< ADC full scale over the per-rail RMS of signal plus noise
+  TrackerMode tracker = TrackerMode::automatic;  ///< automatic: on with CFO, rotation or phase noise
+  double tracker_bandwidth = 0.01;  ///< phase tracker loop bandwidth B_L T (symbol rate)
+  std::size_t pilot_period = 0;     ///< known pilot every P symbols for the tracker; 0 = decisions only
+
+  /// True if any impairment is set (then the waveform link is used).
+  bool any() const noexcept;
+  /// True if the receiver runs its phase tracker.
+  bool tracking() const noexcept;
+};
+
 /// The chain a sweep simulates. Symbol-rate Gray-mapped AWGN unless options say otherwise.
 struct LinkConfig {
-  std::size_t frame_symbols = 4096;  ///< symbols per frame; 16 to 2^22
+  /// Symbols per frame; 16 to 2^22. The default sits on the measured plateau of the vectorised
+  /// symbol-rate chain (bench_kernels BM_SymbolRateFrame, 64-QAM, one core of the 2-core build
+  /// machine, CPU time: 1024: 53, 4096: 54, 16384: 55, 65536: 52 Msymbols/s, one run): frames
+  /// stay in L1/L2 and the per-frame set-up is amortised. Under MPI with many ranks choose larger
+  /// frames (e.g. 65536) so that a batch's gather costs little against a frame's work.
+  std::size_t frame_symbols = 4096;
   /// Extra noise in dB on top of the configured Es/N0 (the receiver behaves as if the SNR were
   /// this much lower); models an implementation loss and lets tests inject a known degradation.
   double impl_loss_db = 0.0;
+  PulseShapingConfig pulse;
+  ImpairmentConfig impairments;
   /// Optional user receiver stage (empty `process` = built-in receiver).
   std::shared_ptr<const UserStage> stage;
+
+  /// True if the oversampled waveform link is used (sps > 1 or any impairment).
+  bool waveform() const noexcept { return pulse.samples_per_symbol > 1 || impairments.any(); }
 };
+
+/// Throws ConfigError for an invalid link (each block's validation, plus their combination).
+void validate(const LinkConfig& link);
 
 /// One operating point of a sweep.
 struct PointSpec {
@@ -107,8 +176,24 @@ struct PointSpec {
 /// Information bits carried per symbol: bits per symbol times the code rate.
 double information_bits_per_symbol(const LinkConfig& link, const Constellation& constellation);
 
+/// SNR loss in dB that the finite RRC span costs at es_n0_db: 10 log10(1 + P_isi Es/N0), with
+/// P_isi the ISI power of the transmit filter followed by its matched filter (pulse module).
+/// Zero for the symbol-rate link.
+double isi_loss_db(const LinkConfig& link, double es_n0_db);
+
 /// Builds the link for a point. Throws ConfigError for inconsistent settings.
 std::unique_ptr<Link> make_link(const LinkConfig& link, const PointSpec& point, std::uint64_t seed);
+
+/// The transmitted symbols and the receiver's decision-point symbols of some frames of a link
+/// (after matched filtering, gain control and phase tracking), for EVM analysis.
+struct SymbolCapture {
+  std::vector<cf32> transmitted;
+  std::vector<cf32> received;
+  double noise_variance = 0.0;  ///< N0 at the decision point (nominal, from Es/N0)
+};
+/// Runs frames 0 .. frames-1 of the link at `point` (one thread) and keeps their symbols.
+SymbolCapture capture_symbols(const LinkConfig& link, const PointSpec& point, std::uint64_t seed,
+                              std::uint64_t frames);
 
 /// Stream number of frame `frame` of the point with `stream_key` (the Philox counter's words 2-3).
 constexpr std::uint64_t frame_stream(std::uint32_t stream_key, std::uint64_t frame) noexcept {
@@ -146,6 +231,9 @@ struct PointResult {
   double ser = 0, ser_low = 0, ser_high = 1;
   double fer = 0, fer_low = 0, fer_high = 1;
   double ber_theory = 0, ser_theory = 0;  ///< AWGN reference; NaN where none exists
+  /// SNR loss from the finite RRC span at this point, 10 log10(1 + P_isi Es/N0), with P_isi the
+  /// matched-cascade ISI power; 0 for the symbol-rate link.
+  double isi_loss_db = 0;
   std::string stop_reason;
   double seconds = 0;  ///< wall time, for information only (never affects counts)
 };
@@ -197,7 +285,9 @@ std::vector<PointSpec> sweep_points(const SweepConfig& config);
 void validate(const SweepConfig& config);
 
 /// Frames in batch number b (0, 1, ...): 4, 8, 16, 32, 64, 64, ... A fixed schedule, so the
-/// stopping rule sees the same frame boundaries on any machine.
+/// stopping rule sees the same frame boundaries on any machine. At the default frame size a
+/// 64-frame batch is about 1.6 Mbit of 64-QAM (a few ms per thread), so thread hand-off per batch
+/// costs well under 1% and a point overshoots its error target by at most one batch.
 std::uint64_t batch_frames(std::uint64_t batch_index) noexcept;
 
 /// Runs the sweep. Points run one after another; the frames of a batch run in parallel.

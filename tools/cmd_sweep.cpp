@@ -8,6 +8,9 @@
 #include "qamsight/figures.hpp"
 #include "qamsight/io.hpp"
 #include "qamsight/sim.hpp"
+#include "link_options.hpp"
+#include "mpi_session.hpp"
+#include "sweep_safety.hpp"
 #include "sweep_table.hpp"
 
 namespace qamsight::cli {
@@ -15,7 +18,14 @@ namespace qamsight::cli {
 namespace {
 
 std::atomic<bool> g_interrupted{false};
-extern "C" void on_sigint(int) { g_interrupted.store(true); }
+std::atomic<int> g_signal{0};
+// Stops at the next batch boundary; a second signal ends the process at once (the checkpoint
+// stays readable either way).
+extern "C" void on_sigint(int sig) {
+  g_signal.store(sig);
+  g_interrupted.store(true);
+  std::signal(sig, SIG_DFL);
+}
 
 struct SweepOptions {
   std::string mod = "qpsk";
@@ -26,7 +36,10 @@ struct SweepOptions {
   std::string seed = "1";
   unsigned threads = 0;
   double impl_loss_db = 0.0;
+  LinkOptions link;
   std::string csv, json, svg;
+  std::string checkpoint;
+  bool resume = false;
   bool quiet = false;
   bool progress = false, no_progress = false;
 };
@@ -50,9 +63,13 @@ void add_options(CLI::App* s, SweepOptions& o) {
   s->add_option("--frame-symbols", o.frame_symbols, "Symbols per frame")->capture_default_str();
   s->add_option("--impl-loss-db", o.impl_loss_db,
                 "Model an implementation loss: the receiver sees this many dB less SNR")->capture_default_str();
+  add_link_options(s, o.link);
   s->add_option("--csv", o.csv, "Write the table as CSV to FILE");
   s->add_option("--json", o.json, "Write the results as JSON to FILE");
   s->add_option("--svg", o.svg, "Write the BER waterfall with theory overlay as SVG to FILE");
+  s->add_option("--checkpoint", o.checkpoint,
+                "Append progress records to FILE after every batch (synced), so the sweep can be resumed");
+  s->add_flag("--resume", o.resume, "Continue from the --checkpoint file (starts it if it does not exist)");
   s->add_flag("--quiet", o.quiet, "Do not print the table");
   s->add_flag("--progress", o.progress, "Show a progress line on stderr even when it is not a terminal");
   s->add_flag("--no-progress", o.no_progress, "Never show the progress line");
@@ -77,6 +94,7 @@ SweepConfig to_config(const SweepOptions& o) {
   c.threads = o.threads;
   c.link.frame_symbols = parse_count("--frame-symbols", o.frame_symbols);
   c.link.impl_loss_db = o.impl_loss_db;
+  apply_link_options(o.link, c.link);
   if (o.progress && o.no_progress) throw UsageError("contradictory options: --progress and --no-progress");
   try {
     validate(c);
@@ -103,15 +121,26 @@ int run(const SweepOptions& o) {
   if (show) hooks.progress = progress_line;
   g_interrupted.store(false);
   hooks.cancel = &g_interrupted;
+  // Under mpirun/srun the frames of each batch are split over the ranks (identical results);
+  // rank 0 alone keeps the checkpoint and writes files.
+  const auto executor = make_sweep_executor(config.threads);
+  hooks.executor = executor.get();
+  if (mpi_active() && o.resume) throw UsageError("--resume is not supported with more than one MPI rank");
+  require_output_paths({{"--csv", o.csv}, {"--json", o.json}, {"--svg", o.svg}});  // not after hours of work
+  const auto checkpoint = is_output_rank() ? attach_checkpoint(o.checkpoint, o.resume, config, hooks) : nullptr;
   auto previous = std::signal(SIGINT, on_sigint);
+  auto previous_term = std::signal(SIGTERM, on_sigint);
   SweepResult result = run_sweep(config, hooks);
   std::signal(SIGINT, previous);
+  std::signal(SIGTERM, previous_term);
   if (show) std::fprintf(stderr, "\r\033[K");
   if (!o.quiet) std::fputs(sweep_table(result).c_str(), stdout);
   if (!result.complete) {
-    std::fprintf(stderr, "qamsight: interrupted; the points above are complete, no output files written\n");
-    return 130;
+    std::fputs(interrupted_note(result, sweep_points(config).size(), checkpoint.get(), g_signal.load()).c_str(),
+               stderr);
+    return 128 + (g_signal.load() == SIGTERM ? SIGTERM : SIGINT);
   }
+  if (!is_output_rank()) return kOk;
   if (!o.csv.empty()) write_output(o.csv, sweep_to_csv(result), "CSV");
   if (!o.json.empty()) write_output(o.json, sweep_to_json(result), "JSON");
   if (!o.svg.empty()) write_output(o.svg, waterfall_svg(result), "SVG");

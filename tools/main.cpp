@@ -4,13 +4,15 @@
 #include <new>
 
 #include "cli.hpp"
+#include "mpi_session.hpp"
 #include "qamsight/core.hpp"
 
 int main(int argc, char** argv) {
   using namespace qamsight;
+  const cli::MpiSession mpi(argc, argv);  // MPI only when built with it and started by mpirun/srun
   CLI::App app{"qamsight: simulate and measure digital radio links (QAM modems, BER/EVM, coding, link margins)",
                "qamsight"};
-  app.set_version_flag("--version", std::string("qamsight ") + std::string(version()));
+  app.set_version_flag("--version", std::string("qamsight ") + std::string(version()) + cli::mpi_build_tag());
   app.require_subcommand(1);
   app.fallthrough(false);
   cli::register_sweep(app);
@@ -18,6 +20,19 @@ int main(int argc, char** argv) {
   cli::register_check(app);
   cli::register_demo(app);
   cli::register_link(app);
+  if (argc > 1 && argv[1][0] != '-') {  // CLI11 calls an unknown subcommand a missing one
+    std::string names;
+    bool known = false;
+    const CLI::App& top = app;
+    for (const auto* sc : top.get_subcommands(std::function<bool(const CLI::App*)>{})) {
+      known = known || sc->get_name() == argv[1];
+      names += (names.empty() ? "" : ", ") + sc->get_name();
+    }
+    if (!known) {
+      std::fprintf(stderr, "qamsight: error: unknown subcommand '%s'; allowed: %s\n", argv[1], names.c_str());
+      return cli::kUsage;
+    }
+  }
   try {
     app.parse(argc, argv);
   } catch (const CLI::CallForHelp& e) {

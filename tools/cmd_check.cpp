@@ -41,6 +41,7 @@ std::string report_table(const GateReport& rep) {
 }
 
 int run(const CheckOptions& o) {
+  require_output_paths({{"--junit", o.junit}});
   GateConfig g;
   g.confidence = o.confidence;
   g.holm = !o.no_holm;

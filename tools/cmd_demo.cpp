@@ -28,6 +28,13 @@ constexpr Leg kLegs[] = {{"qpsk", 0, 10}, {"16qam", 4, 14}, {"64qam", 8, 18}, {"
 
 int run(const DemoOptions& o) {
   namespace fs = std::filesystem;
+  try {  // check the options before the output folder is made
+    SweepConfig options;
+    options.threads = o.threads;
+    validate(options);
+  } catch (const ConfigError& e) {
+    rethrow_with_option_names(e);
+  }
   std::error_code ec;
   fs::create_directories(o.out, ec);
   if (ec) throw InputError("output folder '" + o.out + "': " + ec.message());

@@ -28,7 +28,7 @@ std::string budget_table(const LinkBudget& b) {
 }
 
 std::string margin_table(const LinkScenario& s, const ModcodChoice& c) {
-  Table t({"MODCOD", "eta [bit/sym]", "required Es/N0 [dB]", "Eb/N0 [dB]", "margin [dB]",
+  Table t({"MODCOD", "eta [bit/sym]", "required Es/N0 [dB]", "link Eb/N0 [dB]", "margin [dB]",
            "throughput [Mbit/s]", "meets margin"});
   for (const auto& m : c.margins) {
     const Modcod& r = s.modcods.rows()[m.index];
@@ -71,6 +71,7 @@ std::string pass_table(const LinkScenario& s, const LinkAnalysis& a) {
 }
 
 int run(const LinkOptions& o) {
+  require_output_paths({{"--json", o.json}, {"--svg", o.svg}, {"--svg-esn0", o.svg_esn0}});
   std::optional<double> elevation;
   if (!o.elevation.empty()) {
     const double e = parse_real("--elevation", o.elevation);

@@ -20,6 +20,7 @@ struct TheoryOptions {
 };
 
 int run(const TheoryOptions& o) {
+  require_output_paths({{"--csv", o.csv}, {"--svg", o.svg}});
   const auto mods = split_list(o.mod);
   if (mods.empty()) throw UsageError("--mod = '" + o.mod + "' is not allowed; allowed: at least one modulation");
   std::vector<std::string> names;

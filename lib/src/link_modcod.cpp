@@ -270,7 +270,7 @@ ModcodTable ModcodTable::from_json(std::string_view text, const std::string& sou
   nlohmann::json doc;
   try {
     doc = nlohmann::json::parse(text);
-  } catch (const nlohmann::json::parse_error& e) {
+  } catch (const nlohmann::json::exception& e) {  // parse_error, and out_of_range for 1e999
     throw InputError(source + ": malformed JSON: " + e.what());
   }
   const nlohmann::json* rows = &doc;

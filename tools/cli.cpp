@@ -156,7 +156,8 @@ void rethrow_with_option_names(const ConfigError& e) {
       {"loading_db", "--adc-loading-db"}, {"tracker_bandwidth", "--tracker-bandwidth"},
       {"pilot_period", "--pilot-period"}, {"offset", "--dc-offset"},
       {"delay_samples", "--multipath"}, {"taps", "--multipath"},
-      {"sample_rate_hz", "--symbol-rate"},
+      {"sample_rate_hz", "--symbol-rate"}, {"code", "--code"},
+      {"target_fer", "--target-fer"}, {"min_frame_errors", "--min-frame-errors"},
   };
   const auto it = names.find(e.parameter());
   if (it == names.end()) throw e;

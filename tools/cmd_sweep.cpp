@@ -5,6 +5,7 @@
 #include <thread>
 
 #include "cli.hpp"
+#include "qamsight/fec.hpp"
 #include "qamsight/figures.hpp"
 #include "qamsight/io.hpp"
 #include "qamsight/sim.hpp"
@@ -36,6 +37,7 @@ struct SweepOptions {
   std::string seed = "1";
   unsigned threads = 0;
   double impl_loss_db = 0.0;
+  std::string code, llr = "auto", min_frame_errors = "0";
   LinkOptions link;
   std::string csv, json, svg;
   std::string checkpoint;
@@ -63,6 +65,15 @@ void add_options(CLI::App* s, SweepOptions& o) {
   s->add_option("--frame-symbols", o.frame_symbols, "Symbols per frame")->capture_default_str();
   s->add_option("--impl-loss-db", o.impl_loss_db,
                 "Model an implementation loss: the receiver sees this many dB less SNR")->capture_default_str();
+  std::string names;
+  for (const auto& c : code_names()) names += (names.empty() ? "" : ", ") + c.name;
+  const std::string g = "Coding";
+  s->add_option("--code", o.code, "Forward error correction (default: uncoded; one codeword per frame, "
+                                  "Eb/N0 per information bit): " + names)->group(g);
+  s->add_option("--llr", o.llr, "Soft decisions of the coded receiver: auto (exact log-MAP up to 16 points, "
+                                "max-log above), exact, max-log")->capture_default_str()->group(g);
+  s->add_option("--min-frame-errors", o.min_frame_errors,
+                "Also stop a point after this many frame (codeword) errors (0 = off)")->capture_default_str()->group(g);
   add_link_options(s, o.link);
   s->add_option("--csv", o.csv, "Write the table as CSV to FILE");
   s->add_option("--json", o.json, "Write the results as JSON to FILE");
@@ -95,6 +106,13 @@ SweepConfig to_config(const SweepOptions& o) {
   c.link.frame_symbols = parse_count("--frame-symbols", o.frame_symbols);
   c.link.impl_loss_db = o.impl_loss_db;
   apply_link_options(o.link, c.link);
+  c.link.code = o.code;
+  c.stop.min_frame_errors = parse_count("--min-frame-errors", o.min_frame_errors);
+  c.link.llr = parse_llr_option(o.llr);
+  if (o.code.empty() && (o.llr != "auto" || c.stop.min_frame_errors != 0)) {
+    throw UsageError(std::string(o.llr != "auto" ? "--llr" : "--min-frame-errors") +
+                     " needs --code (an uncoded sweep has hard decisions and no codewords)");
+  }
   if (o.progress && o.no_progress) throw UsageError("contradictory options: --progress and --no-progress");
   try {
     validate(c);

@@ -73,6 +73,13 @@ std::vector<MultipathTap> parse_multipath(const std::string& text) {
 
 }  // namespace
 
+std::optional<LlrMethod> parse_llr_option(const std::string& text) {
+  if (text == "auto") return std::nullopt;
+  if (text == "exact") return LlrMethod::exact;
+  if (text == "max-log") return LlrMethod::max_log;
+  throw UsageError("--llr = '" + text + "' is not allowed; allowed: auto, exact, max-log");
+}
+
 void apply_link_options(const LinkOptions& o, LinkConfig& link) {
   link.pulse.samples_per_symbol = o.sps;
   link.pulse.roll_off = o.rolloff;

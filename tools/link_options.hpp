@@ -3,6 +3,7 @@
 #pragma once
 
 #include <CLI/CLI.hpp>
+#include <optional>
 #include <string>
 
 #include "qamsight/sim.hpp"
@@ -34,6 +35,9 @@ struct LinkOptions {
 
 /// Adds --sps, --rolloff, --span, --symbol-rate and the impairment options to a subcommand.
 void add_link_options(CLI::App* app, LinkOptions& o);
+/// The --llr option of coded subcommands: "auto" (empty: the link's default), "exact", "max-log";
+/// UsageError otherwise.
+std::optional<LlrMethod> parse_llr_option(const std::string& text);
 /// Fills link.pulse and link.impairments; throws UsageError / ConfigError / InputError naming
 /// the option or file.
 void apply_link_options(const LinkOptions& o, LinkConfig& link);

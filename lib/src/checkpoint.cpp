@@ -87,7 +87,7 @@ std::string framed(const ordered_json& record) {
 }
 
 bool valid_stop_reason(const std::string& s) {
-  return s == "min_errors" || s == "max_bits" || s == "relative_width";
+  return s == "min_errors" || s == "min_frame_errors" || s == "max_bits" || s == "relative_width";
 }
 
 [[noreturn]] void fail(const std::string& source, std::size_t line, const std::string& problem) {
@@ -354,7 +354,7 @@ CheckpointContents parse_checkpoint(std::string_view text, const std::string& so
       s.stop_reason = reason.get<std::string>();
       if (s.done != valid_stop_reason(s.stop_reason)) {
         fail(source, line_no, "key 'stop_reason' = " + dump_canonical(reason) +
-                                  (s.done ? " must be min_errors, max_bits or relative_width for a finished point"
+                                  (s.done ? " must be min_errors, min_frame_errors, max_bits or relative_width for a finished point"
                                           : " must be empty for an unfinished point"));
       }
       if (c.bit_errors > c.bits || c.symbol_errors > c.symbols || c.frame_errors > c.frames) {

@@ -10,6 +10,7 @@
 #include <cstring>
 #include <filesystem>
 #include <fstream>
+#include <limits>
 #include <nlohmann/json.hpp>
 #include <random>
 #include <sstream>
@@ -74,6 +75,10 @@ ordered_json number(double v) { return std::isfinite(v) ? ordered_json(v) : orde
 ordered_json point_json(const PointResult& p) {
   ordered_json j;
   j["modulation"] = p.spec.modulation;
+  if (!p.code.empty()) {  // only for coded points: uncoded files keep their columns
+    j["code"] = p.code;
+    j["code_rate"] = p.code_rate;
+  }
   j["eb_n0_db"] = p.spec.eb_n0_db;
   j["es_n0_db"] = p.spec.es_n0_db;
   j["bits"] = p.counts.bits;
@@ -191,6 +196,9 @@ SweepResult sweep_from_json(std::string_view text, const std::string& source) {
   }
   r.config.modulations.clear();
   r.config.snr_db.clear();
+  if (j.contains("link") && j["link"].is_object() && j["link"].contains("code") && j["link"]["code"].is_string()) {
+    r.config.link.code = j["link"]["code"].get<std::string>();
+  }
   for (std::size_t i = 0; i < pts.size(); ++i) {
     const auto& p = pts[i];
     const std::string where = "points[" + std::to_string(i) + "].";
@@ -221,6 +229,16 @@ SweepResult sweep_from_json(std::string_view text, const std::string& source) {
     st.done = true;
     st.stop_reason = p.contains("stop_reason") && p["stop_reason"].is_string() ? p["stop_reason"].get<std::string>() : "";
     PointResult pr = make_point_result(spec, st, r.config.confidence);
+    if (p.contains("code")) {
+      const auto& code = p["code"];
+      if (!code.is_string()) throw InputError(source + ": key '" + where + "code' must be a string");
+      pr.code = code.get<std::string>();
+      pr.code_rate = real_of(p, "code_rate", source, where);
+      if (!(pr.code_rate > 0.0 && pr.code_rate <= 1.0)) {
+        throw InputError(source + ": key '" + where + "code_rate' must be in (0, 1]");
+      }
+      pr.ber_theory = pr.ser_theory = std::numeric_limits<double>::quiet_NaN();  // no coded reference
+    }
     if (p.contains("evm_rms_pct") && p["evm_rms_pct"].is_number()) {
       // Keep the recorded EVM (the error sums are not stored in the file).
       const double e = p["evm_rms_pct"].get<double>() / 100.0;

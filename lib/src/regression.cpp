@@ -116,7 +116,9 @@ GateReport check_against_theory(const SweepResult& result, const GateConfig& con
   for (const auto& p : result.points) {
     GateRow row;
     row.point = p;
-    if (!std::isfinite(p.ber_theory) || p.counts.bits == 0) {
+    if (!p.code.empty()) {
+      row.note = "coded link: no AWGN reference";
+    } else if (!std::isfinite(p.ber_theory) || p.counts.bits == 0) {
       row.note = "no AWGN reference for this modulation";
     } else {
       row.tested = true;
@@ -140,7 +142,9 @@ GateReport check_against_theory(const SweepResult& result, const GateConfig& con
     ImplementationLoss il;
     il.modulation = mod;
     il.target_ber = config.target_ber;
-    if (!theory::has_reference(mod)) {
+    if (!result.config.link.code.empty()) {
+      il.note = "coded link: no AWGN reference";
+    } else if (!theory::has_reference(mod)) {
       il.note = "no AWGN reference";
     } else {
       il.measured_eb_n0_db = eb_n0_at_ber(curve_of(result.points, mod), config.target_ber);
@@ -166,7 +170,7 @@ GateReport check_against_baseline(const SweepResult& result, const SweepResult& 
     row.point = p;
     const PointResult* match = nullptr;
     for (const auto& b : baseline.points) {
-      if (b.spec.modulation == p.spec.modulation &&
+      if (b.spec.modulation == p.spec.modulation && b.code == p.code &&
           std::abs(key_snr(b, result.config.snr_kind) - key_snr(p, result.config.snr_kind)) < 1e-6) {
         match = &b;
         break;

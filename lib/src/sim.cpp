@@ -37,8 +37,9 @@ std::uint32_t point_stream_key(const std::string& modulation, SnrKind kind, doub
   return h;
 }
 
-double information_bits_per_symbol(const LinkConfig& /*link*/, const Constellation& constellation) {
-  return static_cast<double>(constellation.bits_per_symbol());
+double information_bits_per_symbol(const LinkConfig& link, const Constellation& constellation) {
+  const double bits = static_cast<double>(constellation.bits_per_symbol());
+  return link.code.empty() ? bits : bits * effective_code_rate(link, constellation);
 }
 
 void validate(const SweepConfig& c) {
@@ -65,16 +66,17 @@ std::vector<PointSpec> sweep_points(const SweepConfig& c) {
   std::vector<PointSpec> out;
   for (const auto& m : c.modulations) {
     const auto constellation = Constellation::from_name(m);
-    const double bps = information_bits_per_symbol(c.link, constellation);
+    const double bps = static_cast<double>(constellation.bits_per_symbol());
+    const double rate = effective_code_rate(c.link, constellation);  // 1 when uncoded
     for (double s : c.snr_db) {
       PointSpec p;
       p.modulation = constellation.name();
       if (c.snr_kind == SnrKind::eb_n0) {
         p.eb_n0_db = s;
-        p.es_n0_db = theory::es_n0_db_from_eb_n0_db(s, bps);
+        p.es_n0_db = theory::es_n0_db_from_eb_n0_db(s, bps, rate);
       } else {
         p.es_n0_db = s;
-        p.eb_n0_db = theory::eb_n0_db_from_es_n0_db(s, bps);
+        p.eb_n0_db = theory::eb_n0_db_from_es_n0_db(s, bps, rate);
       }
       p.stream_key = point_stream_key(p.modulation, c.snr_kind, s);
       out.push_back(std::move(p));
@@ -106,18 +108,22 @@ class SymbolRateLink final : public Link {
   SymbolRateLink(const LinkConfig& link, const PointSpec& point, std::uint64_t seed)
       : constellation_(Constellation::from_name(point.modulation)),
         awgn_(AwgnConfig{point.es_n0_db - link.impl_loss_db, 1.0}),
-        frame_symbols_(link.frame_symbols),
+        code_(detail::link_code(link)),
+        llr_method_(coded_llr_method(link, constellation_)),
+        frame_symbols_(code_ ? detail::coded_frame_symbols(*code_, constellation_) : link.frame_symbols),
         seed_(seed),
         key_(point.stream_key),
         stage_(link.stage && link.stage->process ? link.stage : nullptr) {}
 
   std::uint64_t bits_per_frame() const override {
-    return frame_symbols_ * constellation_.bits_per_symbol();
+    return code_ ? code_->info_bits() : frame_symbols_ * constellation_.bits_per_symbol();
   }
   std::unique_ptr<FrameRunner> make_runner() const override;
 
   const Constellation constellation_;
   const AwgnChannel awgn_;
+  const std::shared_ptr<const Code> code_;  // null = uncoded
+  const LlrMethod llr_method_;
   const std::size_t frame_symbols_;
   const std::uint64_t seed_;
   const std::uint32_t key_;
@@ -134,11 +140,18 @@ class SymbolRateRunner final : public FrameRunner {
         tx_(link.frame_symbols_),
         rx_(link.frame_symbols_) {
     if (link.stage_) stage_.emplace(*link.stage_, link.stage_mutex_, link.constellation_, link.frame_symbols_);
+    if (link.code_) coded_.emplace(link.code_, link.constellation_, link.llr_method_);
   }
 
   void run(std::uint64_t frame, FrameResult& out) override {
     const auto& c = link_.constellation_;
     simulate(frame);
+    if (coded_) {
+      out = FrameResult{};
+      coded_->receive(rx_, tx_labels_, link_.awgn_.noise_variance(), out.counts);
+      out.evm.add(rx_, tx_);
+      return;
+    }
     std::span<const cf32> evm_symbols = rx_;
     if (stage_) {
       StageInput in;
@@ -172,8 +185,12 @@ class SymbolRateRunner final : public FrameRunner {
   void simulate(std::uint64_t frame) {
     const auto& c = link_.constellation_;
     const std::uint64_t stream = frame_stream(link_.key_, frame);
-    RandomStream payload(link_.seed_, stream, Substream::payload);
-    payload.fill_labels(tx_labels_, c.bits_per_symbol());
+    if (coded_) {
+      coded_->transmit(link_.seed_, stream, tx_labels_);
+    } else {
+      RandomStream payload(link_.seed_, stream, Substream::payload);
+      payload.fill_labels(tx_labels_, c.bits_per_symbol());
+    }
     c.map_labels(tx_labels_, tx_);
     RandomStream noise(link_.seed_, stream, Substream::awgn);
     link_.awgn_.process(noise, tx_, rx_);
@@ -183,6 +200,7 @@ class SymbolRateRunner final : public FrameRunner {
   std::vector<std::uint32_t> tx_labels_, rx_labels_;
   std::vector<cf32> tx_, rx_;
   std::optional<detail::StageCaller> stage_;
+  std::optional<detail::CodedFrame> coded_;
 };
 
 std::unique_ptr<FrameRunner> SymbolRateLink::make_runner() const {
@@ -389,6 +407,7 @@ namespace {
 // Returns the reason to stop, or an empty string to go on.
 std::string stop_reason(const StopRule& rule, const ErrorCounts& c, double confidence) {
   if (c.bit_errors >= rule.min_bit_errors) return "min_errors";
+  if (rule.min_frame_errors > 0 && c.frame_errors >= rule.min_frame_errors) return "min_frame_errors";
   if (c.bits >= rule.max_bits) return "max_bits";
   if (rule.max_relative_width > 0.0 && c.bit_errors > 0) {
     const Interval iv = clopper_pearson(c.bit_errors, c.bits, confidence);
@@ -416,6 +435,8 @@ SweepResult run_sweep(const SweepConfig& config, const SweepHooks& hooks) {
   SweepResult result;
   result.config = config;
   std::vector<FrameResult> batch;
+  const auto code = detail::link_code(config.link);
+  const double code_rate = code ? code->rate() : 1.0;
   for (std::size_t p = 0; p < points.size(); ++p) {
     const PointSpec& spec = points[p];
     PointState state = hooks.resume.empty() ? PointState{} : hooks.resume[p];
@@ -450,8 +471,11 @@ SweepResult run_sweep(const SweepConfig& config, const SweepHooks& hooks) {
         pr.state = &state;
         pr.point_seconds = std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
         const auto& c = state.totals.counts;
-        const double f = std::max(static_cast<double>(c.bit_errors) / static_cast<double>(config.stop.min_bit_errors),
-                                  static_cast<double>(c.bits) / static_cast<double>(config.stop.max_bits));
+        double f = std::max(static_cast<double>(c.bit_errors) / static_cast<double>(config.stop.min_bit_errors),
+                            static_cast<double>(c.bits) / static_cast<double>(config.stop.max_bits));
+        if (config.stop.min_frame_errors > 0) {
+          f = std::max(f, static_cast<double>(c.frame_errors) / static_cast<double>(config.stop.min_frame_errors));
+        }
         pr.point_eta_seconds = f > 0 ? pr.point_seconds * (1.0 - std::min(f, 1.0)) / std::min(f, 1.0)
                                      : std::numeric_limits<double>::quiet_NaN();
         hooks.progress(pr);
@@ -459,6 +483,12 @@ SweepResult run_sweep(const SweepConfig& config, const SweepHooks& hooks) {
     }
     PointResult r = make_point_result(spec, state, config.confidence);
     r.isi_loss_db = isi_loss_db(config.link, spec.es_n0_db);
+    if (!config.link.code.empty()) {
+      // The AWGN references are those of the uncoded modulation: not a reference here.
+      r.code = config.link.code;
+      r.code_rate = code_rate;
+      r.ber_theory = r.ser_theory = std::numeric_limits<double>::quiet_NaN();
+    }
     r.seconds = std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
     if (!state.done) {
       result.complete = false;

@@ -5,6 +5,8 @@
 #include <mutex>
 #include <vector>
 
+#include "qamsight/fec.hpp"
+#include "qamsight/llr.hpp"
 #include "qamsight/sim.hpp"
 
 namespace qamsight::detail {
@@ -30,6 +32,43 @@ class StageCaller {
   std::vector<float> llrs_;
   std::vector<std::uint8_t> bits_;
 };
+
+/// The coded part of a frame, shared by the symbol-rate and the waveform link: information
+/// bits from the frame's payload stream, encoding and mapping to labels on the transmit side;
+/// LLRs, decoding and information-bit error counts on the receive side. One per runner
+/// (it owns the decoder workspace); allocates only at construction.
+class CodedFrame {
+ public:
+  CodedFrame(std::shared_ptr<const Code> code, const Constellation& constellation, LlrMethod method);
+  /// Symbols per frame: ceil(n / bits per symbol).
+  std::size_t symbols() const noexcept { return labels_bits_.size() / bits_; }
+  /// Fills `labels` (symbols() values) with the frame's codeword plus random filler bits.
+  void transmit(std::uint64_t seed, std::uint64_t stream, std::span<std::uint32_t> labels) noexcept;
+  /// Decodes the decision-point symbols (symbols() values, noise variance n0 > 0) of the frame
+  /// last transmitted (whose labels were `sent`) and adds information bits and their errors,
+  /// raw symbol decisions and their errors, and one frame to `out`.
+  void receive(std::span<const cf32> decided, std::span<const std::uint32_t> sent, double n0,
+               ErrorCounts& out) noexcept;
+
+ private:
+  std::shared_ptr<const Code> code_;
+  std::unique_ptr<Decoder> decoder_;
+  LlrDemapper demapper_;
+  const Constellation& constellation_;
+  unsigned bits_;
+  std::vector<std::uint8_t> info_, decoded_, labels_bits_;
+  std::vector<float> llr_;
+  std::vector<std::uint32_t> rx_labels_;
+};
+
+/// The code of a coded link (validated name); null when uncoded.
+std::shared_ptr<const Code> link_code(const LinkConfig& link);
+/// Symbols per frame of a coded link: ceil(n / bits per symbol).
+std::size_t coded_frame_symbols(const Code& code, const Constellation& constellation) noexcept;
+/// Substream of the coded link's filler symbols (waveform warm-up and guard labels, padding
+/// bits), kept apart from the payload stream that carries the information bits; outside the
+/// values of core.hpp's Substream.
+inline constexpr std::uint32_t kCodedFillerSubstream = 9;
 
 /// Bit and symbol errors between label arrays, added to `out` (counts only).
 void count_label_errors(std::span<const std::uint32_t> tx, std::span<const std::uint32_t> rx, unsigned bits,

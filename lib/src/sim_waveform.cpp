@@ -49,7 +49,9 @@ class WaveformLink final : public Link {
       : config_(link),
         constellation_(Constellation::from_name(point.modulation)),
         sps_(link.pulse.samples_per_symbol),
-        n_(link.frame_symbols),
+        code_(link_code(link)),
+        llr_method_(coded_llr_method(link, constellation_)),
+        n_(code_ ? coded_frame_symbols(*code_, constellation_) : link.frame_symbols),
         warmup_(warmup_symbols(link)),
         guard_(sps_ > 1 ? static_cast<std::size_t>(link.pulse.span_symbols) : 0),
         n0_(db_to_linear(-(point.es_n0_db - link.impl_loss_db))),
@@ -62,12 +64,16 @@ class WaveformLink final : public Link {
     if (link.stage && link.stage->process) stage_ = link.stage;
   }
 
-  std::uint64_t bits_per_frame() const override { return n_ * constellation_.bits_per_symbol(); }
+  std::uint64_t bits_per_frame() const override {
+    return code_ ? code_->info_bits() : n_ * constellation_.bits_per_symbol();
+  }
   std::unique_ptr<FrameRunner> make_runner() const override;
 
   const LinkConfig config_;
   const Constellation constellation_;
   const int sps_;
+  const std::shared_ptr<const Code> code_;  // null = uncoded
+  const LlrMethod llr_method_;
   const std::size_t n_, warmup_, guard_;
   const double n0_;  // per sample = per matched-filter output (unit-energy taps)
   const std::uint64_t seed_;
@@ -141,6 +147,7 @@ class WaveformRunner final : public FrameRunner {
     mf_.resize(total);
     z_.resize(link.warmup_ + link.n_);
     if (link.stage_) stage_.emplace(*link.stage_, link.stage_mutex_, link.constellation_, link.n_);
+    if (link.code_) coded_.emplace(link.code_, link.constellation_, link.llr_method_);
   }
 
   void run(std::uint64_t frame, FrameResult& out) override {
@@ -148,6 +155,14 @@ class WaveformRunner final : public FrameRunner {
     const auto& c = link_.constellation_;
     const std::span<const cf32> decided(z_.data() + link_.warmup_, link_.n_);
     const std::span<const std::uint32_t> sent(tx_labels_.data() + link_.warmup_, link_.n_);
+    if (coded_) {
+      // LLRs with the decision point's noise variance (the receiver's AWGN model; impairments
+      // beyond it make the LLRs mismatched, as in a real receiver).
+      out = FrameResult{};
+      coded_->receive(decided, sent, noise_at_decision_, out.counts);
+      out.evm.add(decided, std::span<const cf32>(tx_.data() + link_.warmup_, link_.n_));
+      return;
+    }
     std::span<const cf32> evm_symbols = decided;
     if (stage_) {
       StageInput in;
@@ -183,8 +198,15 @@ class WaveformRunner final : public FrameRunner {
   void simulate(std::uint64_t frame) {
     const auto& c = link_.constellation_;
     const std::uint64_t stream = frame_stream(link_.key_, frame);
-    RandomStream payload(link_.seed_, stream, Substream::payload);
-    payload.fill_labels(tx_labels_, c.bits_per_symbol());
+    if (coded_) {
+      // Warm-up and guard symbols from the filler stream, the codeword in between.
+      RandomStream filler(link_.seed_, stream, kCodedFillerSubstream);
+      filler.fill_labels(tx_labels_, c.bits_per_symbol());
+      coded_->transmit(link_.seed_, stream, std::span<std::uint32_t>(tx_labels_).subspan(link_.warmup_, link_.n_));
+    } else {
+      RandomStream payload(link_.seed_, stream, Substream::payload);
+      payload.fill_labels(tx_labels_, c.bits_per_symbol());
+    }
     c.map_labels(tx_labels_, tx_);
 
     // Transmit filter (or symbols straight through at one sample per symbol).
@@ -268,6 +290,7 @@ class WaveformRunner final : public FrameRunner {
   std::optional<Quantiser> adc_;
   std::optional<PhaseTracker> tracker_;
   std::optional<StageCaller> stage_;
+  std::optional<CodedFrame> coded_;
   std::optional<AwgnChannel> awgn_;
   double noise_at_decision_ = 0.0;
   std::vector<std::uint32_t> tx_labels_, rx_labels_;
@@ -294,6 +317,12 @@ void validate(const LinkConfig& link) {
     throw ConfigError("samples_per_symbol", std::to_string(p.samples_per_symbol), "1 to 64");
   }
   if (p.samples_per_symbol > 1) check_pulse_spec(detail::pulse_spec(link));
+  if (!link.code.empty()) {
+    (void)make_code(link.code);  // ConfigError "code" naming the allowed names
+    if (link.stage && link.stage->process) {
+      throw ConfigError("code", link.code, "no code with a user receiver stage (the stage replaces the decisions)");
+    }
+  }
   const auto& im = link.impairments;
   if (!link.waveform()) return;
   require_range_open_low("symbol_rate_hz", im.symbol_rate_hz, 0.0, 1e12);

@@ -49,6 +49,10 @@ ordered_json link_settings_json(const LinkConfig& link) {
     j["impairments"] = i;
   }
   j["user_stage"] = link.stage && link.stage->process ? ordered_json(link.stage->name) : ordered_json(nullptr);
+  if (!link.code.empty()) {  // only when coded, so uncoded settings stay as they were
+    j["code"] = link.code;
+    j["llr"] = !link.llr ? "auto" : *link.llr == LlrMethod::exact ? "exact" : "max-log";
+  }
   return j;
 }
 
@@ -62,6 +66,7 @@ ordered_json sweep_settings_json(const SweepConfig& c) {
   j["stop_rule"] = {{"min_errors", c.stop.min_bit_errors},
                     {"max_bits", c.stop.max_bits},
                     {"max_relative_width", c.stop.max_relative_width}};
+  if (c.stop.min_frame_errors > 0) j["stop_rule"]["min_frame_errors"] = c.stop.min_frame_errors;
   j["link"] = link_settings_json(c.link);
   return j;
 }

@@ -4,6 +4,8 @@
 #include <array>
 #include <complex>
 #include <cstddef>
+#include <cstdint>
+#include <functional>
 #include <limits>
 #include <memory>
 #include <optional>
@@ -12,6 +14,7 @@
 #include <vector>
 
 #include "qamsight/core.hpp"
+#include "qamsight/sim.hpp"
 
 // The link module answers "which MODCOD gives the most throughput with the required margin, and
 // how does that change over a pass?". It is built from plain structs and pure functions for the
@@ -319,6 +322,64 @@ class ModcodTable {
  private:
   std::vector<Modcod> rows_;
 };
+
+/// Error rate at which simulate_modcod_table reads the thresholds.
+enum class ModcodTarget { ber, fer };
+
+/// A MODCOD table from our own coded simulations: each (modulation, code) pair is swept over
+/// an ascending Es/N0 grid (coded sweeps of sim.hpp, symbol-rate AWGN unless `link` says
+/// otherwise) until a point lies confidently below the target (the upper end of its interval
+/// is below it), and the required Es/N0 is read off the measured curve.
+struct ModcodSimulationConfig {
+  std::vector<std::string> modulations = {"qpsk"};
+  std::vector<std::string> codes = {"conv-k7-r1/2"};  ///< fec.hpp code_names()
+  ModcodTarget target = ModcodTarget::fer;
+  double target_rate = 1e-2;             ///< in (0, 0.5)
+  std::vector<double> es_n0_db;          ///< ascending, at least two values, -30 to 100 dB
+  std::uint64_t min_errors = 100;        ///< errors of the target's kind that end a point; >= 1
+  /// Information bits after which a point ends; 0 = automatic: 30 / target_rate bits (BER)
+  /// or 30 / target_rate frames (FER), enough to tell a point at a third of the target from it.
+  std::uint64_t max_bits = 0;
+  double confidence = 0.95;              ///< of the intervals behind the threshold's bounds
+  std::uint64_t seed = 1;
+  unsigned threads = 0;                  ///< 0 = all cores
+  LinkConfig link;                       ///< channel and receiver; `code` is set per pair
+};
+
+/// The result for one (modulation, code) pair.
+struct ModcodSimulationRow {
+  std::string modulation, code;
+  double code_rate = 1.0;            ///< k / n of the code
+  double spectral_efficiency = 0.0;  ///< information bits per symbol (with symbol padding)
+  bool available = false;            ///< the measured curve crosses the target inside the grid
+  /// Es/N0 where the measured curve crosses the target: log-linear interpolation of the rate
+  /// between the two bracketing grid points. A zero-error point below the target enters with
+  /// the upper end of its interval (so the estimate errs high).
+  double required_es_n0_db = 0.0;
+  /// Where the lower and the upper interval ends of the points cross the target (the same
+  /// interpolation): the Monte-Carlo uncertainty of the threshold. NaN when that crossing lies
+  /// outside the grid (then the bound is beyond the first or last point). For a BER target the
+  /// intervals treat bit errors as independent, but decoders make them in bursts, so these
+  /// bounds are too narrow (by about sqrt(3) for the K = 7 code); FER bounds are exact.
+  double required_low_db = 0.0, required_high_db = 0.0;
+  std::vector<PointResult> curve;    ///< the points simulated, in grid order
+  std::string note;                  ///< why a row is unavailable, or a caveat
+};
+
+struct ModcodSimulation {
+  ModcodSimulationConfig config;
+  ModcodTable table;                      ///< the available rows, in (modulation, code) order
+  std::vector<ModcodSimulationRow> rows;  ///< every pair, in the same order
+};
+
+/// Runs the simulations. ConfigError for bad settings (unknown modulation or code, a grid that is
+/// not ascending, a target outside (0, 0.5)); `progress`, if set, gets one line per point.
+ModcodSimulation simulate_modcod_table(const ModcodSimulationConfig& config,
+                                       const std::function<void(const std::string&)>& progress = {});
+/// Es/N0 where the curve (x ascending, y the rates) first falls from >= target to < target,
+/// interpolating log y linearly in x; NaN when it does not cross inside the grid. When the point
+/// after the crossing has y = 0 (no logarithm), the point before it is returned: a lower bound.
+double log_linear_crossing(const std::vector<double>& x, const std::vector<double>& y, double target);
 
 /// The margin of one MODCOD at a link Es/N0.
 struct ModcodMargin {

@@ -5,11 +5,13 @@
 #include <cstdint>
 #include <functional>
 #include <memory>
+#include <optional>
 #include <span>
 #include <string>
 #include <vector>
 
 #include "qamsight/channel.hpp"
+#include "qamsight/llr.hpp"
 #include "qamsight/measure.hpp"
 #include "qamsight/modem.hpp"
 
@@ -24,6 +26,9 @@ struct StopRule {
   std::uint64_t min_bit_errors = 100;     ///< stop once this many bit errors are counted; >= 1
   std::uint64_t max_bits = 100'000'000;   ///< stop after this many information bits; >= 1
   double max_relative_width = 0.0;        ///< stop when (ber_high - ber_low) / ber <= this; 0 = off
+  /// Also stop once this many frame (codeword) errors are counted; 0 = off. Either error rule
+  /// stops the point, so for FER accuracy raise min_bit_errors as well.
+  std::uint64_t min_frame_errors = 0;
 };
 
 /// What one frame produced. Integer counts plus double EVM sums; the engine merges frames in
@@ -155,6 +160,17 @@ struct LinkConfig {
   ImpairmentConfig impairments;
   /// Optional user receiver stage (empty `process` = built-in receiver).
   std::shared_ptr<const UserStage> stage;
+  /// Forward error correction: a name of fec.hpp's code_names() (make_code), empty = uncoded.
+  /// A coded frame is one codeword: k random information bits are encoded, the n coded bits
+  /// (padded with random filler bits to whole symbols) are mapped, sent through the channel
+  /// (symbol-rate AWGN or the waveform link), turned into LLRs with the decision-point noise
+  /// variance and decoded; errors are counted on the information bits, a frame error is a
+  /// codeword with any information-bit error. frame_symbols is then ceil(n / bits per symbol)
+  /// and the configured value is ignored. Symbol errors count the raw (pre-decoding) slicer
+  /// decisions. A user receiver stage cannot be combined with a code.
+  std::string code;
+  /// LLR method of the coded receiver; empty = exact log-MAP up to 16 points, max-log above.
+  std::optional<LlrMethod> llr;
 
   /// True if the oversampled waveform link is used (sps > 1 or any impairment).
   bool waveform() const noexcept { return pulse.samples_per_symbol > 1 || impairments.any(); }
@@ -173,13 +189,21 @@ struct PointSpec {
   std::uint32_t stream_key = 0;
 };
 
-/// Information bits carried per symbol: bits per symbol times the code rate.
+/// Information bits carried per symbol: bits per symbol times the code rate. For a coded link
+/// that is k / frame symbols = bits_per_symbol * (k / (frame symbols * bits_per_symbol)), so
+/// filler bits that pad the codeword to whole symbols count as overhead like the parity bits.
 double information_bits_per_symbol(const LinkConfig& link, const Constellation& constellation);
 
 /// SNR loss in dB that the finite RRC span costs at es_n0_db: 10 log10(1 + P_isi Es/N0), with
 /// P_isi the ISI power of the transmit filter followed by its matched filter (pulse module).
 /// Zero for the symbol-rate link.
 double isi_loss_db(const LinkConfig& link, double es_n0_db);
+
+/// Code rate that Eb/N0 <-> Es/N0 uses for `link` with `constellation`: 1 when uncoded, else
+/// k / (frame symbols * bits per symbol) (the code's k / n, less any symbol padding).
+double effective_code_rate(const LinkConfig& link, const Constellation& constellation);
+/// The LLR method a coded link uses for a constellation (LinkConfig::llr, or its default).
+LlrMethod coded_llr_method(const LinkConfig& link, const Constellation& constellation);
 
 /// Builds the link for a point. Throws ConfigError for inconsistent settings.
 std::unique_ptr<Link> make_link(const LinkConfig& link, const PointSpec& point, std::uint64_t seed);
@@ -219,7 +243,7 @@ struct PointState {
   FrameResult totals;
   std::uint64_t next_frame = 0;  ///< frames 0 .. next_frame-1 are counted
   bool done = false;
-  std::string stop_reason;       ///< "min_errors", "max_bits", "relative_width" once done
+  std::string stop_reason;  ///< "min_errors", "min_frame_errors", "max_bits", "relative_width"
 };
 
 /// One row of a sweep's output.
@@ -234,6 +258,11 @@ struct PointResult {
   /// SNR loss from the finite RRC span at this point, 10 log10(1 + P_isi Es/N0), with P_isi the
   /// matched-cascade ISI power; 0 for the symbol-rate link.
   double isi_loss_db = 0;
+  /// The code of a coded sweep (LinkConfig::code; empty = uncoded) and its rate k / n. Coded
+  /// points have no AWGN theory reference (ber_theory, ser_theory NaN); ser is the raw
+  /// (pre-decoding) symbol error rate and fer the codeword error rate.
+  std::string code;
+  double code_rate = 1.0;
   std::string stop_reason;
   double seconds = 0;  ///< wall time, for information only (never affects counts)
 };

@@ -176,14 +176,15 @@ std::string evm_budget_svg(const EvmBudgetReport& r) {
   plot::Figure fig(title);
   fig.size(900, height).x_axis({.label = "RMS EVM [%]", .min = 0.0, .max = 1.12 * top}).bars(bars);
   if (r.limit) {
-    fig.vline(r.limit->pct, {.label = "limit " + fixed(r.limit->pct, 2) + " %", .color = plot::palette_color(1),
-                             .dash = plot::Dash::solid, .line_width = 2.0});
+    // One label for both lines: two labels side by side at lines ~1 dB apart would overlap.
     const double margin = r.verdict ? r.verdict->required_margin_db : 0.0;
+    std::string label = "limit " + fixed(r.limit->pct, 2) + " %";
     if (margin > 0.0) {
       const double with = r.limit->pct * std::pow(10.0, -margin / 20.0);
-      fig.vline(with, {.label = "limit - " + fixed(margin, 1) + " dB margin", .color = plot::palette_color(4),
-                       .dash = plot::Dash::dashed, .line_width = 1.5});
+      label += " (dashed: with " + fixed(margin, 1) + " dB margin, " + fixed(with, 2) + " %)";
+      fig.vline(with, {.label = "", .color = plot::palette_color(4), .dash = plot::Dash::dashed, .line_width = 1.5});
     }
+    fig.vline(r.limit->pct, {.label = label, .color = plot::palette_color(1), .dash = plot::Dash::solid, .line_width = 2.0});
   }
   return fig.svg();
 }

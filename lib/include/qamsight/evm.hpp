@@ -1,9 +1,11 @@
 // evm: error vector magnitude and modulation error ratio of symbol-spaced captures.
 #pragma once
 
+#include <cmath>
 #include <cstddef>
 #include <limits>
 #include <span>
+#include <string>
 #include <vector>
 
 #include "qamsight/core.hpp"
@@ -132,6 +134,31 @@ CarrierFit fit_carrier(std::span<const cf32> received, std::span<const cf32> ref
 /// options out of range. Not a hot path: it allocates its results.
 EvmMeasurement measure_evm(std::span<const cf32> received, std::span<const cf32> reference,
                            const Constellation& constellation, const EvmOptions& options = {});
+
+/// Options of the EVM figures (lib/src/evm_figures.cpp).
+struct EvmFigureOptions {
+  std::string title{};  ///< empty: a default title
+  /// RMS EVM limit in %, drawn as a line in the per-symbol figure when finite and > 0.
+  double limit_pct = std::numeric_limits<double>::quiet_NaN();
+  /// Symbols drawn at most, evenly thinned (the peak-error symbol is always among them);
+  /// 100 to 1000000. Keeps figures of long captures small.
+  std::size_t max_points = 4000;
+  /// Error vectors (reference -> corrected symbol) drawn in the constellation, evenly spread
+  /// over the capture plus the peak one; 0 to 100000.
+  std::size_t max_vectors = 300;
+};
+
+/// The constellation of a measurement: the corrected symbols, the ideal points of
+/// `constellation`, and error vectors from reference to corrected symbol, with the peak-error
+/// symbol marked. Square axes, in units of sqrt(P_ref). Needs the per-symbol vectors
+/// (keep_error_vectors); throws ConfigError("error_vectors", ...) without them and for options
+/// out of range.
+std::string evm_constellation_svg(const EvmMeasurement& m, const Constellation& constellation,
+                                  const EvmFigureOptions& options = {});
+/// EVM of each symbol, 100 |e[n]| / sqrt(P_ref) %, against its index, with the RMS EVM of
+/// consecutive blocks (power averaged before the root), the overall RMS EVM and the limit as
+/// lines, and the peak marked. Same requirements as evm_constellation_svg().
+std::string evm_symbols_svg(const EvmMeasurement& m, const EvmFigureOptions& options = {});
 
 /// EVM ratio <-> percent and dB (20 log10).
 inline double evm_pct_to_db(double pct) noexcept { return 20.0 * std::log10(pct / 100.0); }

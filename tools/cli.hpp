@@ -8,6 +8,7 @@
 #include <vector>
 
 #include "qamsight/core.hpp"
+#include "qamsight/link.hpp"
 
 namespace qamsight::cli {
 
@@ -59,6 +60,15 @@ void register_theory(CLI::App& app);
 void register_check(CLI::App& app);
 void register_demo(CLI::App& app);
 void register_link(CLI::App& app);
+void register_modcod(CLI::App& app);
+void register_evm(CLI::App& app);
+void register_waveform(CLI::App& app);
+void register_report(CLI::App& app);
+
+// Text of `qamsight link` (also printed by `qamsight demo`): the whole report, or only the
+// MODCOD margins, the pass table, warnings and cautions.
+std::string link_report_text(const LinkScenario& scenario, const LinkAnalysis& analysis);
+std::string link_modcod_text(const LinkScenario& scenario, const LinkAnalysis& analysis);
 
 }  // namespace qamsight::cli
 

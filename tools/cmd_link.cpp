@@ -70,6 +70,60 @@ std::string pass_table(const LinkScenario& s, const LinkAnalysis& a) {
   return t.str();
 }
 
+}  // namespace
+
+std::string link_modcod_text(const LinkScenario& s, const LinkAnalysis& a) {
+  std::string out;
+  out += "MODCOD margins at " + format_number(a.reference.elevation_deg) +
+         " deg (margin = link Es/N0 - required - implementation margin)\n";
+  out += margin_table(s, a.reference_choice);
+  if (const ModcodMargin* m = a.reference_choice.best_margin()) {
+    out += "Best: " + s.modcods.rows()[m->index].name + ", " + mbps(m->throughput_bps) + " Mbit/s with " +
+           fmt_fixed(m->margin_db, 2) + " dB margin\n";
+  } else {
+    out += "Best: no MODCOD keeps the required margin at this elevation\n";
+  }
+  if (!a.pass.empty()) {
+    out += "\nOver the pass (best MODCOD at each elevation)\n";
+    out += pass_table(s, a);
+  }
+  for (const auto& w : a.warnings) out += "\nWarning: " + w;
+  if (!a.warnings.empty()) out += "\n";
+  for (const auto& c : a.cautions) out += "\n" + c + "\n";
+  return out;
+}
+
+std::string link_report_text(const LinkScenario& s, const LinkAnalysis& a) {
+  std::string out;
+  out += "Link: " + (s.name.empty() ? std::string("(unnamed)") : s.name) + "  [" + s.source + "]\n";
+  auto end = [](const auto& x) {
+    return (x.name.empty() ? std::string("(unnamed)") : x.name) +
+           (x.platform == Platform::satellite ? " (satellite)" : " (ground)");
+  };
+  out += "From " + end(s.transmitter) + " to " + end(s.receiver) + "; circular orbit at " +
+         format_number(s.altitude_km) + " km, pass up to " + format_number(s.max_elevation_deg) + " deg\n";
+  out += "MODCODs: " + s.modcod_source + "; required margin " + format_number(s.required_margin_db) +
+         " dB, implementation margin " + format_number(s.implementation_margin_db) + " dB\n";
+  out +=
+      "Model: spherical Earth (R_e = 6378.137 km), not rotating; Doppler first order on the rising "
+      "half\n\n";
+  out += "Link budget at " + format_number(a.reference.elevation_deg) + " deg elevation\n";
+  out += budget_table(a.reference);
+  if (!a.reference.available) out += "No link at this elevation: " + a.reference.unavailable_reason + "\n";
+  out += "\n";
+  std::string modcod = link_modcod_text(s, a);
+  // antenna notes go before the warnings and cautions, as before
+  std::string notes;
+  if (!a.notes.empty()) notes += "\n";
+  for (const auto& n : a.notes) notes += "Antenna model, " + n + "\n";
+  const auto cut = modcod.find("\nWarning: ") != std::string::npos ? modcod.find("\nWarning: ")
+                   : (a.cautions.empty() ? modcod.size() : modcod.find("\n" + a.cautions.front()));
+  out += modcod.substr(0, cut) + notes + modcod.substr(cut);
+  return out;
+}
+
+namespace {
+
 int run(const LinkOptions& o) {
   require_output_paths({{"--json", o.json}, {"--svg", o.svg}, {"--svg-esn0", o.svg_esn0}});
   std::optional<double> elevation;
@@ -89,43 +143,7 @@ int run(const LinkOptions& o) {
     throw;
   }
 
-  if (!o.quiet) {
-    std::string out;
-    out += "Link: " + (s.name.empty() ? std::string("(unnamed)") : s.name) + "  [" + s.source + "]\n";
-    auto end = [](const auto& x) {
-      return (x.name.empty() ? std::string("(unnamed)") : x.name) +
-             (x.platform == Platform::satellite ? " (satellite)" : " (ground)");
-    };
-    out += "From " + end(s.transmitter) + " to " + end(s.receiver) + "; circular orbit at " +
-           format_number(s.altitude_km) + " km, pass up to " + format_number(s.max_elevation_deg) + " deg\n";
-    out += "MODCODs: " + s.modcod_source + "; required margin " + format_number(s.required_margin_db) +
-           " dB, implementation margin " + format_number(s.implementation_margin_db) + " dB\n";
-    out +=
-        "Model: spherical Earth (R_e = 6378.137 km), not rotating; Doppler first order on the rising "
-        "half\n\n";
-    out += "Link budget at " + format_number(a.reference.elevation_deg) + " deg elevation\n";
-    out += budget_table(a.reference);
-    if (!a.reference.available) out += "No link at this elevation: " + a.reference.unavailable_reason + "\n";
-    out += "\nMODCOD margins at " + format_number(a.reference.elevation_deg) +
-           " deg (margin = link Es/N0 - required - implementation margin)\n";
-    out += margin_table(s, a.reference_choice);
-    if (const ModcodMargin* m = a.reference_choice.best_margin()) {
-      out += "Best: " + s.modcods.rows()[m->index].name + ", " + mbps(m->throughput_bps) + " Mbit/s with " +
-             fmt_fixed(m->margin_db, 2) + " dB margin\n";
-    } else {
-      out += "Best: no MODCOD keeps the required margin at this elevation\n";
-    }
-    if (!a.pass.empty()) {
-      out += "\nOver the pass (best MODCOD at each elevation)\n";
-      out += pass_table(s, a);
-    }
-    if (!a.notes.empty()) out += "\n";
-    for (const auto& n : a.notes) out += "Antenna model, " + n + "\n";
-    for (const auto& w : a.warnings) out += "\nWarning: " + w;
-    if (!a.warnings.empty()) out += "\n";
-    for (const auto& c : a.cautions) out += "\n" + c + "\n";
-    std::fputs(out.c_str(), stdout);
-  }
+  if (!o.quiet) std::fputs(link_report_text(s, a).c_str(), stdout);
   if (!o.json.empty()) write_output(o.json, link_analysis_to_json(s, a), "JSON");
   if (!o.svg.empty()) write_output(o.svg, link_throughput_svg(s, a), "SVG");
   if (!o.svg_esn0.empty()) write_output(o.svg_esn0, link_es_n0_svg(s, a), "SVG");

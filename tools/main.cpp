@@ -20,6 +20,10 @@ int main(int argc, char** argv) {
   cli::register_check(app);
   cli::register_demo(app);
   cli::register_link(app);
+  cli::register_modcod(app);
+  cli::register_evm(app);
+  cli::register_waveform(app);
+  cli::register_report(app);
   if (argc > 1 && argv[1][0] != '-') {  // CLI11 calls an unknown subcommand a missing one
     std::string names;
     bool known = false;

@@ -7,6 +7,16 @@ if(QAMSIGHT_PYTHON_EXECUTABLE)
 endif()
 set(_qs_candidates)
 if(Python3_EXECUTABLE)
+  # An interpreter the user named is the only candidate: building against another one silently
+  # would give a module that the named interpreter cannot import.
+  execute_process(COMMAND ${Python3_EXECUTABLE} -c "import numpy"
+                  RESULT_VARIABLE _qs_rc OUTPUT_QUIET ERROR_QUIET)
+  if(NOT _qs_rc EQUAL 0)
+    message(FATAL_ERROR "qamsight: the interpreter given by Python3_EXECUTABLE (${Python3_EXECUTABLE}) "
+      "cannot import NumPy (or does not run). Install NumPy for it (Debian: python3-numpy), point "
+      "-DPython3_EXECUTABLE at an interpreter that has NumPy, or configure with -DQAMSIGHT_PYTHON=OFF "
+      "-DQAMSIGHT_TESTS=OFF.")
+  endif()
   list(APPEND _qs_candidates ${Python3_EXECUTABLE})
 endif()
 find_program(_qs_path_python3 NAMES python3 NO_CACHE)

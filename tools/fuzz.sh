@@ -14,11 +14,14 @@ cd "$(dirname "$0")/.."
 QAMSIGHT_DEPS_EXTRA="${QAMSIGHT_DEPS_EXTRA:-} sanitizers" ./tools/setup/install-deps.sh
 build=${QAMSIGHT_FUZZ_BUILD_DIR:-build-fuzz}
 seconds=${QAMSIGHT_FUZZ_SECONDS:-60}
-cmake -S . -B "$build" -DCMAKE_CXX_COMPILER=clang++-14 -DCMAKE_BUILD_TYPE=Release \
-  -DCMAKE_CXX_FLAGS=-gline-tables-only -DQAMSIGHT_FUZZ=ON -DQAMSIGHT_SANITIZE=ON -DQAMSIGHT_TESTS=OFF \
-  -DQAMSIGHT_TOOLS=OFF -DQAMSIGHT_PYTHON=OFF -DQAMSIGHT_BENCH=OFF -DQAMSIGHT_INSTALL=OFF \
-  -DQAMSIGHT_WERROR=OFF ${QAMSIGHT_CMAKE_ARGS:-} >/dev/null
-cmake --build "$build" -j"$(nproc)"
+# QAMSIGHT_FUZZ_REUSE_BUILD=1: the harnesses are already built in $build (tools/test-sanitizers.sh).
+if [ "${QAMSIGHT_FUZZ_REUSE_BUILD:-0}" != 1 ]; then
+  cmake -S . -B "$build" -DCMAKE_CXX_COMPILER=clang++-14 -DCMAKE_BUILD_TYPE=Release \
+    -DCMAKE_CXX_FLAGS=-gline-tables-only -DQAMSIGHT_FUZZ=ON -DQAMSIGHT_SANITIZE=ON -DQAMSIGHT_TESTS=OFF \
+    -DQAMSIGHT_TOOLS=OFF -DQAMSIGHT_PYTHON=OFF -DQAMSIGHT_BENCH=OFF -DQAMSIGHT_INSTALL=OFF \
+    -DQAMSIGHT_WERROR=OFF ${QAMSIGHT_CMAKE_ARGS:-} >/dev/null
+  cmake --build "$build" -j"$(nproc)"
+fi
 readers=${QAMSIGHT_FUZZ_READERS:-$(ls tests/fuzz/corpus)}
 export ASAN_OPTIONS=${ASAN_OPTIONS:-detect_leaks=1}
 export UBSAN_OPTIONS=${UBSAN_OPTIONS:-print_stacktrace=1:halt_on_error=1}

@@ -15,8 +15,11 @@ QAMSIGHT_DEPS_EXTRA="${QAMSIGHT_DEPS_EXTRA:-} sanitizers" ./tools/setup/install-
 build=${QAMSIGHT_ASAN_BUILD_DIR:-build-asan}
 jobs=$(nproc)
 start=$(date +%s)
+# The libFuzzer harnesses are built in the same tree (QAMSIGHT_FUZZ=ON: the library carries the
+# fuzzer's coverage instrumentation, which the sanitizer runtime's weak hooks absorb in the test
+# programs), so the library is compiled with clang once for both stages.
 cmake -S . -B "$build" -DCMAKE_CXX_COMPILER=clang++-14 -DCMAKE_BUILD_TYPE=Release \
-  -DCMAKE_CXX_FLAGS=-gline-tables-only -DQAMSIGHT_SANITIZE=ON -DQAMSIGHT_PYTHON=OFF \
+  -DCMAKE_CXX_FLAGS=-gline-tables-only -DQAMSIGHT_SANITIZE=ON -DQAMSIGHT_FUZZ=ON -DQAMSIGHT_PYTHON=OFF \
   -DQAMSIGHT_BENCH=OFF -DQAMSIGHT_WERROR=OFF ${QAMSIGHT_CMAKE_ARGS:-}
 cmake --build "$build" -j"$jobs"
 built=$(date +%s)
@@ -29,5 +32,5 @@ ctest --test-dir "$build" --output-on-failure -j"$jobs" --timeout 5400 -E '^refe
 tested=$(date +%s)
 echo "test-sanitizers: build $((built - start)) s, tests $((tested - built)) s" >&2
 if [ "${QAMSIGHT_FUZZ_SECONDS:-60}" != 0 ]; then
-  ./tools/fuzz.sh
+  QAMSIGHT_FUZZ_BUILD_DIR="$build" QAMSIGHT_FUZZ_REUSE_BUILD=1 ./tools/fuzz.sh
 fi

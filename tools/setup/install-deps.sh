@@ -7,7 +7,7 @@ packages=(
   libfftw3-dev libeigen3-dev catch2 libbenchmark-dev libboost-dev
   libcli11-dev nlohmann-json3-dev libtomlplusplus-dev
   python3 python3-numpy python3-scipy python3-mpmath python3-pybind11 pybind11-dev
-  python3-pytest python3-matplotlib
+  python3-pytest python3-matplotlib python3-pil
   librsvg2-bin
 )
 # Optional groups, selected by environment: QAMSIGHT_DEPS_EXTRA="mpi sanitizers browser"

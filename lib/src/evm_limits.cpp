@@ -172,9 +172,11 @@ double rate_value(std::string_view text) {
   const auto slash = s.find('/');
   char* end = nullptr;
   if (slash != std::string::npos) {
-    const double a = std::strtod(s.substr(0, slash).c_str(), &end);
+    // Named strings: `end` points into them, so they must outlive the checks.
+    const std::string num = s.substr(0, slash), den = s.substr(slash + 1);
+    const double a = std::strtod(num.c_str(), &end);
     if (*end != '\0') return std::nan("");
-    const double b = std::strtod(s.substr(slash + 1).c_str(), &end);
+    const double b = std::strtod(den.c_str(), &end);
     if (*end != '\0' || !(b > 0.0) || slash == 0 || slash + 1 == s.size()) return std::nan("");
     return a / b;
   }

@@ -11,7 +11,7 @@ The NumPy side is what an engineer would write: numpy Generator integers and nor
 lookup for the Gray map, np.clip/np.floor slicing, a 256-entry popcount table, upfirdn for the
 filters. The qamsight side is build/bench/qamsight_bench_chain (the sweep engine itself).
 
-  /usr/bin/python3 bench/compare_numpy.py --bench build-simd/bench/qamsight_bench_chain [--json out.json]
+  /usr/bin/python3 bench/compare_numpy.py --bench build/bench/qamsight_bench_chain [--json out.json]
 """
 import argparse
 import json
@@ -100,7 +100,7 @@ def qamsight_chain(bench, **kw):
 
 def main():
     ap = argparse.ArgumentParser(description=__doc__, formatter_class=argparse.RawDescriptionHelpFormatter)
-    ap.add_argument("--bench", default=os.path.join("build-simd", "bench", "qamsight_bench_chain"))
+    ap.add_argument("--bench", default=os.path.join("build", "bench", "qamsight_bench_chain"))
     ap.add_argument("--esn0", type=float, default=22.0)
     ap.add_argument("--numpy-symbols", type=float, default=2e6)
     ap.add_argument("--qamsight-symbols", type=float, default=4e7)

@@ -44,6 +44,35 @@ double rayleigh_mean(F f, double mu) {
 
 double backoff_db(double saturation, double mean) noexcept { return 10.0 * std::log10(saturation / mean); }
 
+// The back-off figures shared by both amplifier models; `amp` has am_am(), the saturation
+// powers and the AmplifierMeter of the samples it processed.
+double metered_backoff_db(double saturation, double power_sum, std::uint64_t count) noexcept {
+  if (count == 0) return std::numeric_limits<double>::quiet_NaN();
+  return backoff_db(saturation, power_sum / static_cast<double>(count));
+}
+
+template <class Amp>
+double values_output_backoff_db(const Amp& amp, double scale, std::span<const cf64> values) {
+  if (values.empty()) throw ConfigError("input_values", "empty", "at least one value");
+  double sum = 0.0;
+  for (const cf64& v : values) {
+    const double a = amp.am_am(scale * std::abs(v));
+    sum += a * a;
+  }
+  return backoff_db(amp.output_saturation_power(), sum / static_cast<double>(values.size()));
+}
+
+template <class Amp>
+double gaussian_output_backoff_db(const Amp& amp, double scale, double mean_input_power) {
+  const double p = rayleigh_mean(
+      [&amp](double u) {
+        const double a = amp.am_am(std::sqrt(u));
+        return a * a;
+      },
+      scale * scale * mean_input_power);
+  return backoff_db(amp.output_saturation_power(), p);
+}
+
 void validate_drive(double ibo, double mean_power) {
   require_range("input_backoff_db", ibo, -20.0, 40.0);
   require_range_open_low("mean_input_power", mean_power, 0.0, 1e30);
@@ -180,33 +209,18 @@ void SalehAmplifier::process(std::span<const cf32> in, std::span<cf32> out) noex
 }
 
 double SalehAmplifier::measured_output_backoff_db() const noexcept {
-  if (meter_.count == 0) return std::numeric_limits<double>::quiet_NaN();
-  return backoff_db(output_saturation_power(), meter_.output_power / static_cast<double>(meter_.count));
+  return metered_backoff_db(output_saturation_power(), meter_.output_power, meter_.count);
 }
 double SalehAmplifier::measured_input_backoff_db() const noexcept {
-  if (meter_.count == 0) return std::numeric_limits<double>::quiet_NaN();
-  return backoff_db(input_saturation_power(), meter_.input_power / static_cast<double>(meter_.count));
+  return metered_backoff_db(input_saturation_power(), meter_.input_power, meter_.count);
 }
 
 double SalehAmplifier::predicted_output_backoff_db(std::span<const cf64> values) const {
-  if (values.empty()) throw ConfigError("input_values", "empty", "at least one value");
-  double sum = 0.0;
-  for (const cf64& v : values) {
-    const double a = am_am(scale_ * std::abs(v));
-    sum += a * a;
-  }
-  return backoff_db(output_saturation_power(), sum / static_cast<double>(values.size()));
+  return values_output_backoff_db(*this, scale_, values);
 }
 
 double SalehAmplifier::predicted_output_backoff_db_gaussian() const {
-  const double mu = scale_ * scale_ * config_.mean_input_power;
-  const double p = rayleigh_mean(
-      [this](double u) {
-        const double a = am_am(std::sqrt(u));
-        return a * a;
-      },
-      mu);
-  return backoff_db(output_saturation_power(), p);
+  return gaussian_output_backoff_db(*this, scale_, config_.mean_input_power);
 }
 
 // ---------------------------------------------------------------------------------------------
@@ -258,33 +272,18 @@ void RappAmplifier::process(std::span<const cf32> in, std::span<cf32> out) noexc
 }
 
 double RappAmplifier::measured_output_backoff_db() const noexcept {
-  if (meter_.count == 0) return std::numeric_limits<double>::quiet_NaN();
-  return backoff_db(output_saturation_power(), meter_.output_power / static_cast<double>(meter_.count));
+  return metered_backoff_db(output_saturation_power(), meter_.output_power, meter_.count);
 }
 double RappAmplifier::measured_input_backoff_db() const noexcept {
-  if (meter_.count == 0) return std::numeric_limits<double>::quiet_NaN();
-  return backoff_db(input_saturation_power(), meter_.input_power / static_cast<double>(meter_.count));
+  return metered_backoff_db(input_saturation_power(), meter_.input_power, meter_.count);
 }
 
 double RappAmplifier::predicted_output_backoff_db(std::span<const cf64> values) const {
-  if (values.empty()) throw ConfigError("input_values", "empty", "at least one value");
-  double sum = 0.0;
-  for (const cf64& v : values) {
-    const double a = am_am(scale_ * std::abs(v));
-    sum += a * a;
-  }
-  return backoff_db(output_saturation_power(), sum / static_cast<double>(values.size()));
+  return values_output_backoff_db(*this, scale_, values);
 }
 
 double RappAmplifier::predicted_output_backoff_db_gaussian() const {
-  const double mu = scale_ * scale_ * config_.mean_input_power;
-  const double p = rayleigh_mean(
-      [this](double u) {
-        const double a = am_am(std::sqrt(u));
-        return a * a;
-      },
-      mu);
-  return backoff_db(output_saturation_power(), p);
+  return gaussian_output_backoff_db(*this, scale_, config_.mean_input_power);
 }
 
 // ---------------------------------------------------------------------------------------------

@@ -59,28 +59,13 @@
 #include "qamsight/evm_budget.hpp"
 #include "qamsight/evm_limits.hpp"
 
+#include "toml_names.hpp"
+
 namespace qamsight {
 
 namespace {
 
-std::string type_name(const toml::node& n) {
-  switch (n.type()) {
-    case toml::node_type::string:
-      return "a string";
-    case toml::node_type::integer:
-      return "an integer";
-    case toml::node_type::floating_point:
-      return "a float";
-    case toml::node_type::boolean:
-      return "a boolean";
-    case toml::node_type::array:
-      return "an array";
-    case toml::node_type::table:
-      return "a table";
-    default:
-      return "a date or time";
-  }
-}
+using detail::toml_type_name;
 
 // Reads the keys of one table and remembers them, so finish() can reject the others. Messages
 // name the source, the line and the dotted key.
@@ -104,7 +89,7 @@ class Keys {
   std::optional<double> number(std::string_view k, double lo, double hi, bool open_low = false) {
     const toml::node* n = node(k);
     if (!n) return std::nullopt;
-    if (!n->is_number()) fail(n, key(k) + " must be a number, not " + type_name(*n));
+    if (!n->is_number()) fail(n, key(k) + " must be a number, not " + toml_type_name(*n));
     const double v = n->value<double>().value();
     if (!std::isfinite(v) || (open_low ? v <= lo : v < lo) || v > hi) {
       fail(n, key(k) + " = " + format_number(v) + " is not allowed; allowed: " +
@@ -120,7 +105,7 @@ class Keys {
   std::optional<long long> integer(std::string_view k, long long lo, long long hi) {
     const toml::node* n = node(k);
     if (!n) return std::nullopt;
-    if (!n->is_integer()) fail(n, key(k) + " must be an integer, not " + type_name(*n));
+    if (!n->is_integer()) fail(n, key(k) + " must be an integer, not " + toml_type_name(*n));
     const long long v = n->value<long long>().value();
     if (v < lo || v > hi) {
       fail(n, key(k) + " = " + std::to_string(v) + " is not allowed; allowed: " + std::to_string(lo) + " to " +
@@ -131,13 +116,13 @@ class Keys {
   std::optional<bool> boolean(std::string_view k) {
     const toml::node* n = node(k);
     if (!n) return std::nullopt;
-    if (!n->is_boolean()) fail(n, key(k) + " must be a boolean, not " + type_name(*n));
+    if (!n->is_boolean()) fail(n, key(k) + " must be a boolean, not " + toml_type_name(*n));
     return n->value<bool>().value();
   }
   std::optional<std::string> string(std::string_view k) {
     const toml::node* n = node(k);
     if (!n) return std::nullopt;
-    if (!n->is_string()) fail(n, key(k) + " must be a string, not " + type_name(*n));
+    if (!n->is_string()) fail(n, key(k) + " must be a string, not " + toml_type_name(*n));
     return n->value<std::string>().value();
   }
   std::optional<std::string> choice(std::string_view k, const std::vector<std::string>& allowed) {
@@ -153,13 +138,13 @@ class Keys {
   const toml::table* table(std::string_view k) {
     const toml::node* n = node(k);
     if (!n) return nullptr;
-    if (!n->is_table()) fail(n, key(k) + " must be a table, not " + type_name(*n));
+    if (!n->is_table()) fail(n, key(k) + " must be a table, not " + toml_type_name(*n));
     return n->as_table();
   }
   const toml::array* array(std::string_view k) {
     const toml::node* n = node(k);
     if (!n) return nullptr;
-    if (!n->is_array()) fail(n, key(k) + " must be an array, not " + type_name(*n));
+    if (!n->is_array()) fail(n, key(k) + " must be an array, not " + toml_type_name(*n));
     return n->as_array();
   }
   [[noreturn]] void missing(std::string_view k) const {

@@ -64,34 +64,13 @@
 #include "qamsight/io.hpp"
 #include "qamsight/link.hpp"
 
+#include "toml_names.hpp"
+
 namespace qamsight {
 
 namespace {
 
-std::string type_name(const toml::node& n) {
-  switch (n.type()) {
-    case toml::node_type::string:
-      return "a string";
-    case toml::node_type::integer:
-      return "an integer";
-    case toml::node_type::floating_point:
-      return "a float";
-    case toml::node_type::boolean:
-      return "a boolean";
-    case toml::node_type::array:
-      return "an array";
-    case toml::node_type::table:
-      return "a table";
-    case toml::node_type::date:
-      return "a date";
-    case toml::node_type::time:
-      return "a time";
-    case toml::node_type::date_time:
-      return "a date-time";
-    default:
-      return "nothing";
-  }
-}
+using detail::toml_type_name;
 
 /// Levenshtein distance (for "did you mean" hints).
 std::size_t edit_distance(std::string_view a, std::string_view b) {
@@ -138,7 +117,7 @@ class Reader {
                                const char* unit = "") {
     const toml::node* n = node(k);
     if (!n) return std::nullopt;
-    if (!n->is_number()) fail(n, key(k) + " must be a number, not " + type_name(*n));
+    if (!n->is_number()) fail(n, key(k) + " must be a number, not " + toml_type_name(*n));
     const double v = n->value<double>().value();
     if (!std::isfinite(v) || (open_low ? v <= lo : v < lo) || v > hi) {
       fail(n, key(k) + " = " + format_number(v) + " is not allowed; allowed: " +
@@ -156,7 +135,7 @@ class Reader {
   std::optional<long long> integer(std::string_view k, long long lo, long long hi) {
     const toml::node* n = node(k);
     if (!n) return std::nullopt;
-    if (!n->is_integer()) fail(n, key(k) + " must be an integer, not " + type_name(*n));
+    if (!n->is_integer()) fail(n, key(k) + " must be an integer, not " + toml_type_name(*n));
     const long long v = n->value<long long>().value();
     if (v < lo || v > hi) {
       fail(n, key(k) + " = " + std::to_string(v) + " is not allowed; allowed: " + std::to_string(lo) +
@@ -167,7 +146,7 @@ class Reader {
   std::optional<std::string> string(std::string_view k) {
     const toml::node* n = node(k);
     if (!n) return std::nullopt;
-    if (!n->is_string()) fail(n, key(k) + " must be a string, not " + type_name(*n));
+    if (!n->is_string()) fail(n, key(k) + " must be a string, not " + toml_type_name(*n));
     return n->value<std::string>().value();
   }
   std::string choice(std::string_view k, const std::vector<std::string>& allowed, bool required,
@@ -187,13 +166,13 @@ class Reader {
   const toml::table* table(std::string_view k) {
     const toml::node* n = node(k);
     if (!n) return nullptr;
-    if (!n->is_table()) fail(n, key(k) + " must be a table, not " + type_name(*n));
+    if (!n->is_table()) fail(n, key(k) + " must be a table, not " + toml_type_name(*n));
     return n->as_table();
   }
   const toml::array* array(std::string_view k) {
     const toml::node* n = node(k);
     if (!n) return nullptr;
-    if (!n->is_array()) fail(n, key(k) + " must be an array, not " + type_name(*n));
+    if (!n->is_array()) fail(n, key(k) + " must be an array, not " + toml_type_name(*n));
     return n->as_array();
   }
   /// A missing key; a present unknown key that looks like it (a typo) is named instead.
@@ -410,7 +389,7 @@ double read_rate(Reader& r, const toml::node& n, const std::string& key, bool al
     }
     v = p / q;
   } else {
-    r.fail(&n, key + " must be a number or a fraction string, not " + type_name(n));
+    r.fail(&n, key + " must be a number or a fraction string, not " + toml_type_name(n));
   }
   if (!(v > 0.0 && (allow_one ? v <= 1.0 : v < 1.0))) {
     r.fail(&n, key + " = " + format_number(v) +
@@ -465,7 +444,7 @@ ModcodTable read_modcods(Reader& r, const std::string& source, std::string& desc
       const toml::node& n = *mods->get(i);
       if (!n.is_string()) {
         r.fail(&n,
-               r.key("modulations") + "[" + std::to_string(i) + "] must be a string, not " + type_name(n));
+               r.key("modulations") + "[" + std::to_string(i) + "] must be a string, not " + toml_type_name(n));
       }
       names.push_back(n.value<std::string>().value());
     }
@@ -489,7 +468,7 @@ ModcodTable read_modcods(Reader& r, const std::string& source, std::string& desc
   for (std::size_t i = 0; i < rows->size(); ++i) {
     const toml::node& n = *rows->get(i);
     const std::string key = r.key("row") + "[" + std::to_string(i) + "]";
-    if (!n.is_table()) r.fail(&n, key + " must be a table ([[modcods.row]]), not " + type_name(n));
+    if (!n.is_table()) r.fail(&n, key + " must be a table ([[modcods.row]]), not " + toml_type_name(n));
     Reader row(*n.as_table(), key, source);
     Modcod m;
     const auto name = row.string("name");
@@ -580,7 +559,7 @@ LinkScenario parse_link_scenario(std::string_view toml_text, const std::string& 
       for (std::size_t i = 0; i < a->size(); ++i) {
         const toml::node& n = *a->get(i);
         const std::string k = "pass.elevations_deg[" + std::to_string(i) + "]";
-        if (!n.is_number()) pass.fail(&n, k + " must be a number, not " + type_name(n));
+        if (!n.is_number()) pass.fail(&n, k + " must be a number, not " + toml_type_name(n));
         const double e = n.value<double>().value();
         if (!(e >= 0.0 && e <= top_e)) {
           pass.fail(&n, k + " = " + format_number(e) + " is not allowed; allowed: 0 to " +

@@ -125,15 +125,9 @@ void write_signal_views(const std::filesystem::path& dir, const EvmLineup& lineu
   WaveformSpec tx_spec;
   tx_spec.es_n0_db = 150.0;
   tx_spec.impairments = setup.link.impairments;
-  std::unique_ptr<WelchEstimator> welch;
-  double fs = 0.0;
-  fs = run_generator(tx_spec, [&](std::span<const cf32> b) {
-    if (!welch) welch = std::make_unique<WelchEstimator>(WelchConfig{1024, 0.5, WindowKind::blackman_harris4,
-                                                                      lineup.symbol_rate_hz * sps});
-    welch->add(b);
-  });
-  (void)fs;
-  const Spectrum sp = welch->psd();
+  WelchEstimator welch(WelchConfig{1024, 0.5, WindowKind::blackman_harris4, lineup.symbol_rate_hz * sps});
+  run_generator(tx_spec, [&](std::span<const cf32> b) { welch.add(b); });
+  const Spectrum sp = welch.psd();
   SpectrumFigureOptions so;
   so.title = "Transmit spectrum before the receiver noise, with an illustrative mask";
   so.mask = demo_mask();

@@ -70,9 +70,8 @@ std::string pass_table(const LinkScenario& s, const LinkAnalysis& a) {
   return t.str();
 }
 
-}  // namespace
-
-std::string link_modcod_text(const LinkScenario& s, const LinkAnalysis& a) {
+// MODCOD margins at the reference elevation, the best choice and the pass table.
+std::string modcod_sections(const LinkScenario& s, const LinkAnalysis& a) {
   std::string out;
   out += "MODCOD margins at " + format_number(a.reference.elevation_deg) +
          " deg (margin = link Es/N0 - required - implementation margin)\n";
@@ -87,10 +86,21 @@ std::string link_modcod_text(const LinkScenario& s, const LinkAnalysis& a) {
     out += "\nOver the pass (best MODCOD at each elevation)\n";
     out += pass_table(s, a);
   }
+  return out;
+}
+
+std::string warnings_and_cautions(const LinkAnalysis& a) {
+  std::string out;
   for (const auto& w : a.warnings) out += "\nWarning: " + w;
   if (!a.warnings.empty()) out += "\n";
   for (const auto& c : a.cautions) out += "\n" + c + "\n";
   return out;
+}
+
+}  // namespace
+
+std::string link_modcod_text(const LinkScenario& s, const LinkAnalysis& a) {
+  return modcod_sections(s, a) + warnings_and_cautions(a);
 }
 
 std::string link_report_text(const LinkScenario& s, const LinkAnalysis& a) {
@@ -110,15 +120,10 @@ std::string link_report_text(const LinkScenario& s, const LinkAnalysis& a) {
   out += "Link budget at " + format_number(a.reference.elevation_deg) + " deg elevation\n";
   out += budget_table(a.reference);
   if (!a.reference.available) out += "No link at this elevation: " + a.reference.unavailable_reason + "\n";
-  out += "\n";
-  std::string modcod = link_modcod_text(s, a);
-  // antenna notes go before the warnings and cautions, as before
-  std::string notes;
-  if (!a.notes.empty()) notes += "\n";
-  for (const auto& n : a.notes) notes += "Antenna model, " + n + "\n";
-  const auto cut = modcod.find("\nWarning: ") != std::string::npos ? modcod.find("\nWarning: ")
-                   : (a.cautions.empty() ? modcod.size() : modcod.find("\n" + a.cautions.front()));
-  out += modcod.substr(0, cut) + notes + modcod.substr(cut);
+  out += "\n" + modcod_sections(s, a);
+  if (!a.notes.empty()) out += "\n";
+  for (const auto& n : a.notes) out += "Antenna model, " + n + "\n";
+  out += warnings_and_cautions(a);
   return out;
 }
 

@@ -299,9 +299,13 @@ ReportSection evm_section(const std::filesystem::path& dir) {
   return s;
 }
 
-ReportSection link_section(const std::filesystem::path& dir) {
+// The link section; the link's cautions (transmit power, licensing) go to `cautions`.
+ReportSection link_section(const std::filesystem::path& dir, std::vector<std::string>& cautions) {
   const auto p = dir / "link.json";
   const json j = read_json(p, "link JSON");
+  if (const auto c = j.find("cautions"); c != j.end() && c->is_array())
+    for (const auto& x : *c)
+      if (x.is_string()) cautions.push_back(x.get<std::string>());
   const json& scenario = member(j, "scenario", p, false);
   const json& pass = member(j, "pass", p, true);
   ReportSection s;
@@ -421,15 +425,8 @@ ReportDocument report_from_folder(const std::string& folder) {
   }
   if (has("evm-budget.json")) d.sections.push_back(evm_section(dir));
   else d.missing.push_back("EVM budget (evm-budget.json)");
-  if (has("link.json")) {
-    d.sections.push_back(link_section(dir));
-    const json j = read_json(dir / "link.json", "link JSON");
-    if (const auto c = j.find("cautions"); c != j.end() && c->is_array())
-      for (const auto& x : *c)
-        if (x.is_string()) d.cautions.push_back(x.get<std::string>());
-  } else {
-    d.missing.push_back("MODCOD over the pass (link.json)");
-  }
+  if (has("link.json")) d.sections.push_back(link_section(dir, d.cautions));
+  else d.missing.push_back("MODCOD over the pass (link.json)");
   if (d.sections.empty())
     throw InputError("report folder '" + folder +
                      "': none of waterfall.json, constellation.svg, eye.svg, spectrum.svg, evm-budget.json, link.json found");

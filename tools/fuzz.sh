@@ -4,6 +4,11 @@
 #   QAMSIGHT_FUZZ_SECONDS  seconds per harness (default 60)
 #   QAMSIGHT_FUZZ_READERS  space-separated subset of readers (default: all)
 #   QAMSIGHT_FUZZ_BUILD_DIR build folder (default build-fuzz)
+#   QAMSIGHT_FUZZ_SEED     libFuzzer's -seed (default 1; 0 lets libFuzzer pick one at random)
+# With a fixed seed and an empty <build>/corpus, a run explores the same inputs in the same order
+# each time (how far it gets depends on the machine's speed): a CI run is reproducible, and a
+# longer local run with the same seed covers what CI will try. Explore new ground with
+# QAMSIGHT_FUZZ_SEED=0 and a long QAMSIGHT_FUZZ_SECONDS.
 # New interesting inputs stay in <build>/corpus/<reader>/ (not the source tree). A finding (crash,
 # leak, undefined behaviour, an exception other than InputError/ConfigError, a timeout) is saved
 # as <build>/findings/<reader>-...; the script goes on with the other readers, then lists the
@@ -14,6 +19,7 @@ cd "$(dirname "$0")/.."
 QAMSIGHT_DEPS_EXTRA="${QAMSIGHT_DEPS_EXTRA:-} sanitizers" ./tools/setup/install-deps.sh
 build=${QAMSIGHT_FUZZ_BUILD_DIR:-build-fuzz}
 seconds=${QAMSIGHT_FUZZ_SECONDS:-60}
+seed=${QAMSIGHT_FUZZ_SEED:-1}
 # QAMSIGHT_FUZZ_REUSE_BUILD=1: the harnesses are already built in $build (tools/test-sanitizers.sh).
 if [ "${QAMSIGHT_FUZZ_REUSE_BUILD:-0}" != 1 ]; then
   cmake -S . -B "$build" -DCMAKE_CXX_COMPILER=clang++-14 -DCMAKE_BUILD_TYPE=Release \
@@ -35,10 +41,10 @@ for r in $readers; do
     continue
   fi
   mkdir -p "$build/corpus/$r"
-  echo "fuzz: $r for $seconds s" >&2
+  echo "fuzz: $r for $seconds s (seed $seed)" >&2
   # -timeout: an input that takes 10 s is a hang; -rss_limit_mb: a reader that asks for gigabytes
   # on a small file is a finding too.
-  if ! "$harness" -max_total_time="$seconds" -timeout=10 -rss_limit_mb=2048 -max_len=65536 \
+  if ! "$harness" -seed="$seed" -max_total_time="$seconds" -timeout=10 -rss_limit_mb=2048 -max_len=65536 \
       -print_final_stats=1 -artifact_prefix="$build/findings/$r-" \
       "$build/corpus/$r" "tests/fuzz/corpus/$r" >"$build/findings/$r.log" 2>&1; then
     failed+=("$r")

@@ -65,6 +65,7 @@ namespace qamsight {
 
 namespace {
 
+using detail::toml_number;
 using detail::toml_type_name;
 
 // Reads the keys of one table and remembers them, so finish() can reject the others. Messages
@@ -90,7 +91,7 @@ class Keys {
     const toml::node* n = node(k);
     if (!n) return std::nullopt;
     if (!n->is_number()) fail(n, key(k) + " must be a number, not " + toml_type_name(*n));
-    const double v = n->value<double>().value();
+    const double v = toml_number(*n);
     if (!std::isfinite(v) || (open_low ? v <= lo : v < lo) || v > hi) {
       fail(n, key(k) + " = " + format_number(v) + " is not allowed; allowed: " +
                   (open_low ? "greater than " + format_number(lo) + " and at most " : format_number(lo) + " to ") +
@@ -194,7 +195,7 @@ PhaseNoiseMask read_mask(Keys& k, const toml::array& a) {
     if (!pair || pair->size() != 2 || !(*pair)[0].is_number() || !(*pair)[1].is_number()) {
       k.fail(&item, k.key("mask") + " entries must be [offset_hz, dbc_hz] pairs of numbers");
     }
-    pts.push_back({(*pair)[0].value<double>().value(), (*pair)[1].value<double>().value()});
+    pts.push_back({toml_number((*pair)[0]), toml_number((*pair)[1])});
   }
   try {
     return PhaseNoiseMask(std::move(pts));
@@ -327,7 +328,7 @@ EvmLineupFile parse_evm_lineup(std::string_view text, const std::string& source,
       if (a->size() != 2 || !(*a)[0].is_number() || !(*a)[1].is_number()) {
         k.fail(n, k.key("dc_offset") + " must be [re, im] (two numbers)");
       }
-      l.dc_offset = cf64((*a)[0].value<double>().value(), (*a)[1].value<double>().value());
+      l.dc_offset = cf64(toml_number((*a)[0]), toml_number((*a)[1]));
       if (!(std::abs(l.dc_offset) <= 10.0)) {
         k.fail(n, k.key("dc_offset") + " = |" + format_number(std::abs(l.dc_offset)) + "| is not allowed; allowed: magnitude at most 10");
       }

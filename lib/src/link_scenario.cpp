@@ -70,6 +70,7 @@ namespace qamsight {
 
 namespace {
 
+using detail::toml_number;
 using detail::toml_type_name;
 
 /// Levenshtein distance (for "did you mean" hints).
@@ -118,7 +119,7 @@ class Reader {
     const toml::node* n = node(k);
     if (!n) return std::nullopt;
     if (!n->is_number()) fail(n, key(k) + " must be a number, not " + toml_type_name(*n));
-    const double v = n->value<double>().value();
+    const double v = toml_number(*n);
     if (!std::isfinite(v) || (open_low ? v <= lo : v < lo) || v > hi) {
       fail(n, key(k) + " = " + format_number(v) + " is not allowed; allowed: " +
                   (open_low ? "greater than " + format_number(lo) + " and at most "
@@ -374,7 +375,7 @@ ReceiverSpec read_receiver(Reader& r, const std::string& source) {
 double read_rate(Reader& r, const toml::node& n, const std::string& key, bool allow_one) {
   double v = std::nan("");
   if (n.is_number()) {
-    v = n.value<double>().value();
+    v = toml_number(n);
   } else if (n.is_string()) {
     const std::string s = n.value<std::string>().value();
     const auto slash = s.find('/');
@@ -560,7 +561,7 @@ LinkScenario parse_link_scenario(std::string_view toml_text, const std::string& 
         const toml::node& n = *a->get(i);
         const std::string k = "pass.elevations_deg[" + std::to_string(i) + "]";
         if (!n.is_number()) pass.fail(&n, k + " must be a number, not " + toml_type_name(n));
-        const double e = n.value<double>().value();
+        const double e = toml_number(n);
         if (!(e >= 0.0 && e <= top_e)) {
           pass.fail(&n, k + " = " + format_number(e) + " is not allowed; allowed: 0 to " +
                             format_number(top_e) + " deg (pass.max_elevation_deg)");

@@ -1,4 +1,5 @@
-// toml_names: how the TOML readers (link scenarios, EVM line-ups) name a value's type in messages.
+// toml_names: what the TOML readers (link scenarios, EVM line-ups) share: how a value's type is
+// named in messages, and how a number is read.
 #pragma once
 
 #include <string>
@@ -30,6 +31,14 @@ inline std::string toml_type_name(const toml::node& n) {
     default:
       return "nothing";
   }
+}
+
+/// The value of a number node (integer or float; the caller has checked is_number()). An integer
+/// is converted to the nearest double: toml++'s own value<double>() refuses integers that a double
+/// cannot hold exactly (beyond 2^53) and returns nothing.
+inline double toml_number(const toml::node& n) {
+  if (const auto* i = n.as_integer()) return static_cast<double>(i->get());
+  return n.as_floating_point()->get();
 }
 
 }  // namespace qamsight::detail

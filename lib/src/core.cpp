@@ -96,6 +96,15 @@ std::array<double, 2> box_muller(std::uint32_t a0, std::uint32_t a1, std::uint32
   return g;
 }
 
+std::array<float, 2> box_muller_f32(std::uint32_t a0, std::uint32_t a1, std::uint32_t b0,
+                                    std::uint32_t b1) noexcept {
+  // Defined in detail::gaussian_pair_f32 (kernels_portable.cpp): the same Box-Muller in float
+  // arithmetic, with u kept at float precision down to 2^-65; b1 is not used.
+  std::array<float, 2> g;
+  detail::gaussian_pair_f32(a0, a1, b0, b1, &g[0], &g[1]);
+  return g;
+}
+
 namespace {
 detail::PhiloxStart philox_start(const PhiloxCounter& c, const PhiloxKey& k) noexcept {
   return {{c[0], c[1], c[2], c[3]}, {k[0], k[1]}};
@@ -164,7 +173,7 @@ void RandomStream::fill_gaussian(std::span<float> out) noexcept {
   counter_[0] += static_cast<std::uint32_t>(pairs);
   if (out.size() % 2) {
     const auto b = next_block();
-    out.back() = static_cast<float>(box_muller(b[0], b[1], b[2], b[3])[0]);
+    out.back() = box_muller_f32(b[0], b[1], b[2], b[3])[0];
   }
 }
 
@@ -182,14 +191,14 @@ void RandomStream::fill_gaussian(std::span<double> out) noexcept {
 void RandomStream::fill_complex_gaussian(std::span<cf32> out, double variance) noexcept {
   used_ = 4;
   const double sigma = std::sqrt(variance / 2.0);
-  detail::kernels().noise_cf32(philox_start(counter_, key_), out.size(), sigma, nullptr,
+  detail::kernels().noise_cf32(philox_start(counter_, key_), out.size(), static_cast<float>(sigma), nullptr,
                                reinterpret_cast<float*>(out.data()));
   counter_[0] += static_cast<std::uint32_t>(out.size());
 }
 
 void RandomStream::add_complex_noise(std::span<const cf32> in, std::span<cf32> out, double sigma) noexcept {
   used_ = 4;
-  detail::kernels().noise_cf32(philox_start(counter_, key_), in.size(), sigma,
+  detail::kernels().noise_cf32(philox_start(counter_, key_), in.size(), static_cast<float>(sigma),
                                reinterpret_cast<const float*>(in.data()), reinterpret_cast<float*>(out.data()));
   counter_[0] += static_cast<std::uint32_t>(in.size());
 }

@@ -36,6 +36,14 @@ constexpr double kC1 = 4.16666666666666019037e-02, kC2 = -1.38888888888741095749
 constexpr double kC3 = 2.48015872894767294178e-05, kC4 = -2.75573143513906633035e-07;
 constexpr double kC5 = 2.08757232129817482790e-09, kC6 = -1.13596475577881948265e-11;
 constexpr double kAngleStep = 6.283185307179586232 * 0x1p-53;
+// The single-precision constants (Cephes log, sin, cos), as in kernels_portable.cpp.
+constexpr float kLogF[9] = {7.0376836292e-2f,  -1.1514610310e-1f, 1.1676998740e-1f,
+                            -1.2420140846e-1f, 1.4249322787e-1f,  -1.6668057665e-1f,
+                            2.0000714765e-1f,  -2.4999993993e-1f, 3.3333331174e-1f};
+constexpr float kLn2HiF = 0.693359375f, kLn2LoF = -2.12194440e-4f;
+constexpr float kSinF0 = -1.9515295891e-4f, kSinF1 = 8.3321608736e-3f, kSinF2 = -1.6666654611e-1f;
+constexpr float kCosF0 = 2.443315711809948e-5f, kCosF1 = -1.388731625493765e-3f, kCosF2 = 4.166664568298827e-2f;
+constexpr float kAngleStepF = static_cast<float>(6.283185307179586232 * 0x1p-24);
 
 inline __m256d add(__m256d a, __m256d b) { return _mm256_add_pd(a, b); }
 inline __m256d sub(__m256d a, __m256d b) { return _mm256_sub_pd(a, b); }
@@ -184,6 +192,64 @@ inline void gaussian8(const Blocks8& b, __m256d* out) {
   out[3] = _mm256_permute2f128_pd(blo, bhi, 0x31);
 }
 
+// ---- single precision: eight blocks per vector, no unpacking (Blocks8 is already SoA) ----
+
+inline __m256 addf(__m256 a, __m256 b) { return _mm256_add_ps(a, b); }
+inline __m256 subf(__m256 a, __m256 b) { return _mm256_sub_ps(a, b); }
+inline __m256 mulf(__m256 a, __m256 b) { return _mm256_mul_ps(a, b); }
+inline __m256 cstf(float v) { return _mm256_set1_ps(v); }
+inline __m256i cst32(std::uint32_t v) { return _mm256_set1_epi32(static_cast<int>(v)); }
+
+inline __m256 log_unit8(__m256 u) {
+  const __m256i ix = _mm256_add_epi32(_mm256_castps_si256(u), cst32(0x3f800000u - 0x3f3504f3u));
+  const __m256 e = _mm256_cvtepi32_ps(_mm256_sub_epi32(_mm256_srli_epi32(ix, 23), cst32(127)));
+  const __m256 m = _mm256_castsi256_ps(_mm256_add_epi32(_mm256_and_si256(ix, cst32(0x007fffffu)), cst32(0x3f3504f3u)));
+  const __m256 f = subf(m, cstf(1.0f));
+  const __m256 z = mulf(f, f);
+  __m256 p = cstf(kLogF[0]);
+  for (int i = 1; i < 9; ++i) p = addf(mulf(p, f), cstf(kLogF[i]));
+  __m256 y = mulf(mulf(p, f), z);
+  y = addf(y, mulf(cstf(kLn2LoF), e));
+  y = subf(y, mulf(cstf(0.5f), z));
+  return addf(addf(f, y), mulf(cstf(kLn2HiF), e));
+}
+
+// The single-precision Gaussian pairs of eight blocks: g0[l], g1[l] of block l.
+inline void gaussian8_f32(const Blocks8& b, __m256& g0, __m256& g1) {
+  const __m256 hi = mulf(_mm256_cvtepi32_ps(_mm256_srli_epi32(b.c[0], 8)), cstf(0x1p-24f));
+  const __m256i midi = _mm256_or_si256(_mm256_slli_epi32(_mm256_and_si256(b.c[0], cst32(0xffu)), 16),
+                                       _mm256_srli_epi32(b.c[1], 16));
+  const __m256 mid = mulf(_mm256_cvtepi32_ps(midi), cstf(0x1p-48f));
+  const __m256 lo = addf(mulf(_mm256_cvtepi32_ps(_mm256_and_si256(b.c[1], cst32(0xffffu))), cstf(0x1p-64f)),
+                         cstf(0x1p-65f));
+  const __m256 u = addf(hi, addf(mid, lo));
+  const __m256 radius = _mm256_sqrt_ps(mulf(cstf(-2.0f), log_unit8(u)));
+  const __m256i k = _mm256_srli_epi32(b.c[2], 8);
+  const __m256i j = _mm256_srli_epi32(_mm256_add_epi32(k, cst32(1u << 21)), 22);
+  const __m256i rem = _mm256_sub_epi32(k, _mm256_slli_epi32(j, 22));
+  const __m256 a = mulf(_mm256_cvtepi32_ps(rem), cstf(kAngleStepF));
+  const __m256 z = mulf(a, a);
+  const __m256 ps = addf(mulf(addf(mulf(cstf(kSinF0), z), cstf(kSinF1)), z), cstf(kSinF2));
+  const __m256 sa = addf(mulf(mulf(ps, z), a), a);
+  const __m256 pc = addf(mulf(addf(mulf(cstf(kCosF0), z), cstf(kCosF1)), z), cstf(kCosF2));
+  const __m256 ca = addf(subf(mulf(mulf(pc, z), z), mulf(cstf(0.5f), z)), cstf(1.0f));
+  const __m256i one = cst32(1), two = cst32(2);
+  const __m256 swap = _mm256_castsi256_ps(_mm256_cmpeq_epi32(_mm256_and_si256(j, one), one));
+  __m256 c = _mm256_blendv_ps(ca, sa, swap);
+  __m256 s = _mm256_blendv_ps(sa, ca, swap);
+  c = _mm256_xor_ps(c, _mm256_castsi256_ps(_mm256_slli_epi32(_mm256_and_si256(_mm256_add_epi32(j, one), two), 30)));
+  s = _mm256_xor_ps(s, _mm256_castsi256_ps(_mm256_slli_epi32(_mm256_and_si256(j, two), 30)));
+  g0 = mulf(radius, c);
+  g1 = mulf(radius, s);
+}
+
+// (g0, g1) of eight blocks interleaved in block order: samples 0..3, then 4..7.
+inline void interleave8(__m256 g0, __m256 g1, __m256& first, __m256& second) {
+  const __m256 lo = _mm256_unpacklo_ps(g0, g1), hi = _mm256_unpackhi_ps(g0, g1);
+  first = _mm256_permute2f128_ps(lo, hi, 0x20);
+  second = _mm256_permute2f128_ps(lo, hi, 0x31);
+}
+
 // Blocks per step of the loops below: two interleaved groups of eight.
 constexpr std::size_t kStep = 16;
 
@@ -244,28 +310,40 @@ void gaussian_f64(const PhiloxStart& s, std::size_t blocks, double* out) {
   }
 }
 
+// The 32 floats of 16 blocks in block order (g0, g1 of block 0, then block 1, ...), times sigma.
+inline void gaussian16_f32(const PhiloxStart& st, std::size_t first, __m256 sigma, __m256 out[4]) {
+  Blocks8 b[2];
+  philox8<2>(st, first, b);
+  for (int h = 0; h < 2; ++h) {
+    __m256 g0, g1;
+    gaussian8_f32(b[h], g0, g1);
+    interleave8(mulf(sigma, g0), mulf(sigma, g1), out[2 * h], out[2 * h + 1]);
+  }
+}
+
 void gaussian_f32(const PhiloxStart& s, std::size_t blocks, float* out) {
   for (std::size_t b = 0; b < blocks; b += kStep) {
-    __m256d g[8];
-    gaussian16(s, b, g);
-    __m128 f[8];
-    for (int k = 0; k < 8; ++k) f[k] = _mm256_cvtpd_ps(g[k]);
+    Blocks8 g[2];
+    philox8<2>(s, b, g);
+    __m256 v[4];
+    for (int h = 0; h < 2; ++h) {
+      __m256 g0, g1;
+      gaussian8_f32(g[h], g0, g1);
+      interleave8(g0, g1, v[2 * h], v[2 * h + 1]);
+    }
     if (b + kStep <= blocks) {
-      std::memcpy(out + 2 * b, f, sizeof f);
+      std::memcpy(out + 2 * b, v, sizeof v);
     } else {
-      std::memcpy(out + 2 * b, f, 8 * (blocks - b));
+      std::memcpy(out + 2 * b, v, 8 * (blocks - b));
     }
   }
 }
 
-void noise_cf32(const PhiloxStart& s, std::size_t blocks, double sigma, const float* in, float* out) {
-  const __m256d sg = cst(sigma);
+void noise_cf32(const PhiloxStart& s, std::size_t blocks, float sigma, const float* in, float* out) {
+  const __m256 sg = cstf(sigma);
   for (std::size_t b = 0; b < blocks; b += kStep) {
-    __m256d g[8];
-    gaussian16(s, b, g);
     __m256 v[4];
-    for (int k = 0; k < 4; ++k)
-      v[k] = _mm256_set_m128(_mm256_cvtpd_ps(mul(sg, g[2 * k + 1])), _mm256_cvtpd_ps(mul(sg, g[2 * k])));
+    gaussian16_f32(s, b, sg, v);
     if (b + kStep <= blocks) {
       for (int k = 0; k < 4; ++k) {
         const __m256 y = in ? _mm256_add_ps(_mm256_loadu_ps(in + 2 * b + 8 * k), v[k]) : v[k];

@@ -103,6 +103,72 @@ void gaussian_pair(std::uint32_t w0, std::uint32_t w1, std::uint32_t w2, std::ui
   *g1 = radius * s;
 }
 
+// The single-precision definition (float kernels: gaussian_f32, noise_cf32). Polynomials of the
+// Cephes single-precision log, sin and cos (minimax on the reduced ranges, about 1 ulp).
+namespace {
+
+constexpr float kLogF[9] = {7.0376836292e-2f,  -1.1514610310e-1f, 1.1676998740e-1f,
+                            -1.2420140846e-1f, 1.4249322787e-1f,  -1.6668057665e-1f,
+                            2.0000714765e-1f,  -2.4999993993e-1f, 3.3333331174e-1f};
+constexpr float kLn2HiF = 0.693359375f, kLn2LoF = -2.12194440e-4f;  // ln 2 = hi + lo
+constexpr float kSinF0 = -1.9515295891e-4f, kSinF1 = 8.3321608736e-3f, kSinF2 = -1.6666654611e-1f;
+constexpr float kCosF0 = 2.443315711809948e-5f, kCosF1 = -1.388731625493765e-3f, kCosF2 = 4.166664568298827e-2f;
+// 2 pi / 2^24: radians per unit of the 24-bit angle.
+constexpr float kAngleStepF = static_cast<float>(6.283185307179586232 * 0x1p-24);
+
+inline float sin_kernel_f32(float x) noexcept {
+  const float z = x * x;
+  const float p = (kSinF0 * z + kSinF1) * z + kSinF2;
+  return ((p * z) * x) + x;
+}
+
+inline float cos_kernel_f32(float x) noexcept {
+  const float z = x * x;
+  const float p = (kCosF0 * z + kCosF1) * z + kCosF2;
+  return (((p * z) * z) - 0.5f * z) + 1.0f;
+}
+
+}  // namespace
+
+float log_unit_f32(float u) noexcept {
+  // u = 2^k m with m in [sqrt(1/2), sqrt(2)): shifting the bits by 1 - sqrt(1/2) moves the
+  // exponent boundary to sqrt(1/2) (0x3f3504f3 is sqrt(1/2) as a float).
+  const std::uint32_t ix = std::bit_cast<std::uint32_t>(u) + (0x3f800000u - 0x3f3504f3u);
+  const float e = static_cast<float>(static_cast<std::int32_t>(ix >> 23) - 127);
+  const float m = std::bit_cast<float>((ix & 0x007fffffu) + 0x3f3504f3u);
+  const float f = m - 1.0f;
+  const float z = f * f;
+  float p = kLogF[0];
+  for (int i = 1; i < 9; ++i) p = p * f + kLogF[i];
+  float y = (p * f) * z;
+  y = y + kLn2LoF * e;
+  y = y - 0.5f * z;
+  return (f + y) + kLn2HiF * e;
+}
+
+void gaussian_pair_f32(std::uint32_t w0, std::uint32_t w1, std::uint32_t w2, std::uint32_t /*w3*/, float* g0,
+                       float* g1) noexcept {
+  // u = (x + 1/2) 2^-64 for x = (w0 << 32) | w1, summed from three exact 24-, 24- and 16-bit
+  // parts so that u keeps float precision however small it is (the tail lives near 0).
+  const float hi = static_cast<float>(w0 >> 8) * 0x1p-24f;
+  const float mid = static_cast<float>(((w0 & 0xffu) << 16) | (w1 >> 16)) * 0x1p-48f;
+  const float lo = static_cast<float>(w1 & 0xffffu) * 0x1p-64f + 0x1p-65f;
+  const float u = hi + (mid + lo);
+  const float radius = std::sqrt(-2.0f * log_unit_f32(u));
+  // Angle k / 2^24 turns = j quarter turns + a, |a| <= pi/4, reduced exactly in integers.
+  const std::uint32_t k = w2 >> 8;
+  const std::uint32_t j = (k + (1u << 21)) >> 22;  // 0..4
+  const std::int32_t rem = static_cast<std::int32_t>(k) - static_cast<std::int32_t>(j << 22);
+  const float a = static_cast<float>(rem) * kAngleStepF;
+  const float sa = sin_kernel_f32(a), ca = cos_kernel_f32(a);
+  float c = (j & 1u) ? sa : ca;
+  float s = (j & 1u) ? ca : sa;
+  if ((j + 1) & 2u) c = -c;  // quadrants 1 and 2
+  if (j & 2u) s = -s;        // quadrants 2 and 3
+  *g0 = radius * c;
+  *g1 = radius * s;
+}
+
 // ---------------------------------------------------------------------------------------------
 // Portable kernels.
 
@@ -137,19 +203,16 @@ void gaussian_f64(const PhiloxStart& s, std::size_t blocks, double* out) {
 void gaussian_f32(const PhiloxStart& s, std::size_t blocks, float* out) {
   for (std::size_t b = 0; b < blocks; ++b) {
     const auto w = block_at(s, b);
-    double g0, g1;
-    gaussian_pair(w[0], w[1], w[2], w[3], &g0, &g1);
-    out[2 * b] = static_cast<float>(g0);
-    out[2 * b + 1] = static_cast<float>(g1);
+    gaussian_pair_f32(w[0], w[1], w[2], w[3], out + 2 * b, out + 2 * b + 1);
   }
 }
 
-void noise_cf32(const PhiloxStart& s, std::size_t blocks, double sigma, const float* in, float* out) {
+void noise_cf32(const PhiloxStart& s, std::size_t blocks, float sigma, const float* in, float* out) {
   for (std::size_t b = 0; b < blocks; ++b) {
     const auto w = block_at(s, b);
-    double g0, g1;
-    gaussian_pair(w[0], w[1], w[2], w[3], &g0, &g1);
-    const float n0 = static_cast<float>(sigma * g0), n1 = static_cast<float>(sigma * g1);
+    float g0, g1;
+    gaussian_pair_f32(w[0], w[1], w[2], w[3], &g0, &g1);
+    const float n0 = sigma * g0, n1 = sigma * g1;
     if (in) {
       out[2 * b] = in[2 * b] + n0;
       out[2 * b + 1] = in[2 * b + 1] + n1;

@@ -94,6 +94,65 @@ TEST_CASE("Gaussian samples: moments and Kolmogorov-Smirnov against the normal C
   CHECK(d < 1.949 / std::sqrt(nd));
 }
 
+TEST_CASE("single-precision Gaussian noise (the sweeps' AWGN): moments and Kolmogorov-Smirnov", "[core]") {
+  // fill_complex_gaussian with total variance 2: real and imaginary parts are each N(0, 1),
+  // tested together as 2n samples; the same bands and critical value as the double test above.
+  RandomStream rs(2027, 43, Substream::awgn);
+  const std::size_t n = 100000;
+  std::vector<cf32> z(n);
+  rs.fill_complex_gaussian(z, 2.0);
+  std::vector<double> g;
+  g.reserve(2 * n);
+  double cross = 0.0;
+  for (const cf32& v : z) {
+    g.push_back(v.real());
+    g.push_back(v.imag());
+    cross += static_cast<double>(v.real()) * v.imag();
+  }
+  const double nd = static_cast<double>(g.size());
+  double m1 = 0, m2 = 0, m3 = 0, m4 = 0;
+  for (double x : g) m1 += x, m2 += x * x, m3 += x * x * x, m4 += x * x * x * x;
+  m1 /= nd, m2 /= nd, m3 /= nd, m4 /= nd;
+  CHECK(std::abs(m1) < 6.0 / std::sqrt(nd));
+  CHECK(std::abs(m2 - 1.0) < 6.0 * std::sqrt(2.0 / nd));
+  CHECK(std::abs(m3) < 6.0 * std::sqrt(15.0 / nd));
+  CHECK(std::abs(m4 - 3.0) < 6.0 * std::sqrt(96.0 / nd));
+  // Real and imaginary parts uncorrelated: E[xy] = 0 with standard error 1 / sqrt(n).
+  CHECK(std::abs(cross / static_cast<double>(n)) < 6.0 / std::sqrt(static_cast<double>(n)));
+  std::sort(g.begin(), g.end());
+  const boost::math::normal_distribution<double> normal;
+  double d = 0.0;
+  for (std::size_t i = 0; i < g.size(); ++i) {
+    const double f = boost::math::cdf(normal, g[i]);
+    d = std::max({d, f - static_cast<double>(i) / nd, static_cast<double>(i + 1) / nd - f});
+  }
+  CHECK(d < 1.949 / std::sqrt(nd));  // Kolmogorov critical value, alpha = 0.001 (as above)
+}
+
+TEST_CASE("single-precision Box-Muller radius is right far into the tail (beyond 7 sigma)", "[core]") {
+  // As for the double generator, P(R > r) is the fraction of 64-bit x below
+  // x* = exp(-r^2/2) 2^64. In float the radius is off by a few ulps (relative 4e-7), which moves
+  // the crossing by a relative r^2 4e-7 at most; check that it lies within that band of x* at
+  // r = 7, 8, 9 (the tail probability is then right to 2e-5, 3e-5, 3.3e-5 relative).
+  for (double r : {7.0, 8.0, 9.0}) {
+    const double xstar = std::exp(-r * r / 2.0) * 0x1p64;
+    const double band = r * r * 4e-7;
+    const auto below = static_cast<std::uint64_t>(std::floor(xstar * (1.0 - band)));
+    const auto above = static_cast<std::uint64_t>(std::ceil(xstar * (1.0 + band)));
+    auto radius = [](std::uint64_t x) {
+      const auto g = box_muller_f32(static_cast<std::uint32_t>(x >> 32), static_cast<std::uint32_t>(x), 0, 0);
+      return std::hypot(static_cast<double>(g[0]), static_cast<double>(g[1]));
+    };
+    INFO("r = " << r << ": radius " << radius(below) << " below x*, " << radius(above) << " above");
+    CHECK(radius(below) > r);
+    CHECK(radius(above) < r);
+  }
+  // The largest radius, at x = 0: sqrt(-2 ln 2^-65) = 9.4944 (here against the double log).
+  const auto g = box_muller_f32(0, 0, 0, 0);
+  qamsight::test::check_close(std::hypot(static_cast<double>(g[0]), static_cast<double>(g[1])),
+                              std::sqrt(-2.0 * std::log(0.5 * 0x1p-64)), 1e-6);
+}
+
 TEST_CASE("Gaussian tails beyond 3 and 4 sigma within binomial bounds", "[core]") {
   const std::size_t n = 1 << 23;
   std::vector<float> g(n);

@@ -80,7 +80,7 @@ TEST_CASE("every kernel path is bit-identical to the portable reference: random 
         REQUIRE(same_bits(fa, fb));
         std::vector<float> in(2 * blocks + 1);
         for (std::size_t i = 0; i < in.size(); ++i) in[i] = 0.25f * static_cast<float>(i % 7) - 0.75f;
-        for (double sigma : {1.0, 0.0316227766, 3.5e-5}) {
+        for (float sigma : {1.0f, 0.0316227766f, 3.5e-5f}) {
           std::vector<float> na(2 * blocks + 1, -1.0f), nb(2 * blocks + 1, -1.0f);
           ref.noise_cf32(s, blocks, sigma, in.data(), na.data());
           k->noise_cf32(s, blocks, sigma, in.data(), nb.data());
@@ -212,6 +212,48 @@ TEST_CASE("the library's log and sin/cos agree with the C library to about 1 ulp
   CHECK(detail::log_unit(1.0) == 0.0);
   // u = 2^-65: ln = -65 ln 2 (mpmath: -45.054532... ; here against the long double log).
   CHECK(std::abs(detail::log_unit(0x1p-65) - static_cast<double>(std::log(0x1p-65L))) <= 0x1p-52 * 45.06);
+}
+
+TEST_CASE("the single-precision log and Gaussian pair agree with the C library to a few float ulps", "[kernels]") {
+  // Reference: glibc's long double log, cos and sin. The float log is checked over the whole
+  // range of the radial uniform, u from 2^-65 to 1, in float ulps of the result.
+  RandomStream rs(4, 4, Substream::user);
+  double worst_log = 0.0, worst_radius = 0.0, worst_angle = 0.0, worst_r2 = 0.0;
+  for (int i = 0; i < 400000; ++i) {
+    const float u = std::ldexp(1.0f + static_cast<float>(rs.next_u32() >> 9) * 0x1p-23f, -1 - static_cast<int>(i % 65));
+    const long double ref = std::log(static_cast<long double>(u));
+    const float got = detail::log_unit_f32(u);
+    const double ulp = std::max(std::abs(static_cast<double>(ref)), 0x1p-126) * 0x1p-23;
+    worst_log = std::max(worst_log, static_cast<double>(std::abs(static_cast<long double>(got) - ref)) / ulp);
+    const auto b = rs.next_block();
+    float g0, g1;
+    detail::gaussian_pair_f32(b[0], b[1], b[2], b[3], &g0, &g1);
+    const long double x = static_cast<long double>((std::uint64_t{b[0]} << 32) | b[1]);
+    const long double r = std::sqrt(-2.0L * std::log((x + 0.5L) * 0x1p-64L));
+    const long double theta = static_cast<long double>(b[2] >> 8) * 0x1p-24L * 2.0L * 3.14159265358979323846264338327950288L;
+    const long double rg = std::hypot(static_cast<long double>(g0), static_cast<long double>(g1));
+    // Below radius 1 the float u (spacing 2^-24 just below 1) sets an absolute grain of r^2 =
+    // -2 ln u: the error of r^2 is counted in units of 2^-23 there; from radius 1 on (the tail),
+    // the relative error of r and of both components in float ulps of r.
+    if (r < 1.0L) {
+      worst_r2 = std::max(worst_r2, static_cast<double>(std::abs(rg * rg - r * r) / 0x1p-23L));
+    } else {
+      worst_radius = std::max(worst_radius, static_cast<double>(std::abs(rg - r) / (r * 0x1p-23L)));
+      const double e0 = static_cast<double>(std::abs(g0 - r * std::cos(theta)));
+      const double e1 = static_cast<double>(std::abs(g1 - r * std::sin(theta)));
+      worst_angle = std::max(worst_angle, std::max(e0, e1) / static_cast<double>(r * 0x1p-23L));
+    }
+  }
+  INFO("worst r^2 error below radius 1: " << worst_r2 << " x 2^-23");
+  CHECK(worst_r2 <= 3.0);  // u off by up to 2^-25 (rounding), the sums and the log by less
+  INFO("worst float log error " << worst_log << " ulp, radius " << worst_radius << " ulp, components "
+                                 << worst_angle << " ulp of the radius");
+  CHECK(worst_log <= 2.0);
+  CHECK(worst_radius <= 3.0);
+  CHECK(worst_angle <= 4.0);
+  CHECK(detail::log_unit_f32(1.0f) == 0.0f);
+  // ln 2^-65 = -45.0545... (against the long double log).
+  CHECK(std::abs(detail::log_unit_f32(0x1p-65f) - static_cast<float>(std::log(0x1p-65L))) <= 45.06f * 0x1p-23f);
 }
 
 TEST_CASE("RandomStream bulk fills continue the word stream exactly (mid-block starts)", "[kernels]") {

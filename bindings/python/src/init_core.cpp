@@ -113,6 +113,9 @@ void init_core(py::module_& m) {
       "64-bit key (as 4 and 2 words).");
   m.def("box_muller", &box_muller, "a0"_a, "a1"_a, "b0"_a, "b1"_a,
         "The standard normal pair of the library's Box-Muller transform from two 32-bit word pairs.");
+  m.def("box_muller_f32", &box_muller_f32, "a0"_a, "a1"_a, "b0"_a, "b1"_a,
+        "The single-precision pair from the same words (b1 unused): the generator of float streams\n"
+        "and of the sweeps' noise; returned as Python floats holding float32 values.");
 
   py::class_<RandomStream>(m, "RandomStream",
                            "Sequential reader of one Philox4x32-10 stream keyed by (seed, stream, substream).\n\n"

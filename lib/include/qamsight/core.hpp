@@ -117,15 +117,17 @@ class RandomStream {
 
   /// Fills with uniform [0, 1) floats (24-bit resolution).
   void fill_uniform(std::span<float> out) noexcept;
-  /// Fills with independent standard normal samples (variance 1).
+  /// Fills with independent standard normal samples (variance 1): floats from the
+  /// single-precision generator (box_muller_f32), doubles from the double one (box_muller),
+  /// one Philox block per pair in both.
   void fill_gaussian(std::span<float> out) noexcept;
   void fill_gaussian(std::span<double> out) noexcept;
   /// Fills with circular complex Gaussian samples of total variance `variance`
-  /// (variance/2 per real and imaginary part).
+  /// (variance/2 per real and imaginary part), single-precision pairs.
   void fill_complex_gaussian(std::span<cf32> out, double variance) noexcept;
-  /// out[i] = in[i] + sigma (g0 + j g1), one block (one Gaussian pair) per sample, the noise
-  /// rounded to float before the addition; in and out may be the same span. Draws the same
-  /// Gaussian pairs as fill_complex_gaussian.
+  /// out[i] = in[i] + sigma (g0 + j g1), one block (one single-precision Gaussian pair) per
+  /// sample, all in float (sigma rounded to float first); in and out may be the same span.
+  /// Draws the same Gaussian pairs as fill_complex_gaussian.
   void add_complex_noise(std::span<const cf32> in, std::span<cf32> out, double sigma) noexcept;
   /// Fills with uniformly random labels in [0, 2^bits), bits in 1..32.
   void fill_labels(std::span<std::uint32_t> out, unsigned bits) noexcept;
@@ -149,6 +151,11 @@ class RandomStream {
 /// Exposed so vectorised generators can be checked against the reference.
 std::array<double, 2> box_muller(std::uint32_t a0, std::uint32_t a1, std::uint32_t b0,
                                  std::uint32_t b1) noexcept;
+/// The single-precision pair of the float streams (noise of the sweeps), from the same words
+/// (b1 is not used): float arithmetic, the radial uniform kept at float precision down to 2^-65
+/// so the tail reaches 9.49 sigma as in box_muller (detail/kernels.hpp states the accuracy).
+std::array<float, 2> box_muller_f32(std::uint32_t a0, std::uint32_t a1, std::uint32_t b0,
+                                    std::uint32_t b1) noexcept;
 
 /// dB helpers (power ratios).
 inline double db_to_linear(double db) noexcept { return std::pow(10.0, db / 10.0); }

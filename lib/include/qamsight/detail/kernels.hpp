@@ -13,7 +13,8 @@
 // sweep runs on. tests/cpp/test_kernels.cpp compares every compiled path against the portable
 // reference for exact equality.
 //
-// The Gaussian sequence is defined here, not by the C library: Box-Muller on
+// Two Gaussian sequences are defined here, not by the C library. The double-precision one
+// (gaussian_f64, RandomStream::gaussian, box_muller) is Box-Muller on
 //   u = (x + 1/2) 2^-64,  x the 64-bit word (w0 << 32) | w1 of a Philox block,
 //   t = (y >> 11) 2^-53 turns, y = (w2 << 32) | w3,
 //   (g0, g1) = sqrt(-2 ln u) (cos 2 pi t, sin 2 pi t),
@@ -23,6 +24,21 @@
 // keeps 64-bit resolution near 0, so the largest radius is sqrt(-2 ln 2^-65) = 9.49 sigma and
 // the tail probability P(|g| > r) is right to one count of x far beyond 7 sigma (at r = 7 the
 // boundary x is 4.2e8, so the relative error of the tail is below 3e-9).
+//
+// The single-precision one (gaussian_f32, noise_cf32: every float sample stream, so the AWGN
+// of the sweeps) is the same Box-Muller in float arithmetic, twice as wide per vector and
+// without a division:
+//   u = hi + (mid + lo), hi = (w0 >> 8) 2^-24, mid = (((w0 & 0xff) << 16) | (w1 >> 16)) 2^-48,
+//       lo = (w1 & 0xffff) 2^-64 + 2^-65   (three exact parts of (x + 1/2) 2^-64, so u keeps
+//       float precision near 0),
+//   k = w2 >> 8, t = k 2^-24 turns (w3 unused),
+//   (g0, g1) = sqrt(-2 ln u) (cos 2 pi t, sin 2 pi t)
+// with ln from detail::log_unit_f32 and sin/cos on [-pi/4, pi/4] after the same exact quadrant
+// reduction (Cephes single-precision polynomials, about 1 ulp each). The largest radius is again
+// sqrt(-2 ln 2^-65) = 9.49 sigma. From radius 1 on the radius is within 2 float ulps of the exact
+// sqrt(-2 ln u) (measured 1.7 ulp, 2e-7 relative), so the tail probability exp(-r^2/2) is right
+// to a relative r^2 2.4e-7: 1.2e-5 at 7 sigma, 2e-5 at 9 sigma (tests/cpp/test_kernels.cpp and
+// test_core.cpp check the radius against a long double log and the tail crossing at 7, 8, 9).
 #pragma once
 
 #include <cstddef>
@@ -49,11 +65,12 @@ struct KernelTable {
   void (*philox_uniform_f32)(const PhiloxStart& s, std::size_t blocks, float* out);
   /// out[2b], out[2b + 1] = the Gaussian pair of block b (double precision).
   void (*gaussian_f64)(const PhiloxStart& s, std::size_t blocks, double* out);
-  /// The same pairs rounded to float.
+  /// out[2b], out[2b + 1] = the single-precision Gaussian pair of block b (gaussian_pair_f32).
   void (*gaussian_f32)(const PhiloxStart& s, std::size_t blocks, float* out);
-  /// Complex noise, one block per complex sample: out[2b + k] = float(sigma * g_k), plus
-  /// in[2b + k] (float addition) when `in` is not null. in may equal out.
-  void (*noise_cf32)(const PhiloxStart& s, std::size_t blocks, double sigma, const float* in, float* out);
+  /// Complex noise, one block per complex sample: out[2b + k] = sigma * g_k (float, the
+  /// single-precision pair), plus in[2b + k] (float addition) when `in` is not null. in may
+  /// equal out.
+  void (*noise_cf32)(const PhiloxStart& s, std::size_t blocks, float sigma, const float* in, float* out);
 
   /// Table lookup: out[i] = table[labels[i] & mask] for complex float points (re, im pairs).
   void (*map_labels)(const std::uint32_t* labels, std::size_t n, std::uint32_t mask, const float* table,
@@ -91,6 +108,11 @@ double log_unit(double u) noexcept;
 /// Gaussian pair from the four words of one Philox block.
 void gaussian_pair(std::uint32_t w0, std::uint32_t w1, std::uint32_t w2, std::uint32_t w3,
                    double* g0, double* g1) noexcept;
+/// ln u for u in [2^-65, 1] in float (normal floats).
+float log_unit_f32(float u) noexcept;
+/// The single-precision Gaussian pair from the words of one Philox block (w3 is not used).
+void gaussian_pair_f32(std::uint32_t w0, std::uint32_t w1, std::uint32_t w2, std::uint32_t w3, float* g0,
+                       float* g1) noexcept;
 
 // Implementations, for the dispatcher (kernels_portable.cpp defines the table chooser).
 extern const KernelTable kPortableKernels;

@@ -9,6 +9,7 @@
 
 #include "qamsight/core.hpp"
 #include "qamsight/detail/kernels.hpp"
+#include "pulse_kernels.hpp"
 
 namespace qamsight::detail {
 
@@ -280,9 +281,23 @@ void evm_sums(const float* rx, const float* ref, std::size_t n, double* error_po
 
 }  // namespace
 
+namespace {
+
+void interpolate_f32(const float* phase_taps, std::size_t L, std::size_t K, const float* line, std::size_t symbols,
+                     float* out) {
+  interpolate_chunk(phase_taps, L, K, line, symbols, reinterpret_cast<std::complex<float>*>(out));
+}
+
+std::size_t decimate_f32(const float* taps2, std::size_t n2, const float* line, std::size_t first, std::size_t end,
+                         std::size_t step, float* out) {
+  return decimate_chunk(taps2, n2, line, first, end, step, reinterpret_cast<std::complex<float>*>(out));
+}
+
+}  // namespace
+
 const KernelTable kPortableKernels = {
     "portable",       philox_words,       philox_uniform_f32, gaussian_f64, gaussian_f32, noise_cf32, map_labels,
-    slice_square_qam, count_label_errors, evm_sums,
+    slice_square_qam, count_label_errors, evm_sums,       interpolate_f32,    decimate_f32,
 };
 
 const KernelTable& portable_kernels() noexcept { return kPortableKernels; }

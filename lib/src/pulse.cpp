@@ -6,8 +6,10 @@
 #include <limits>
 #include <numbers>
 #include <string>
+#include <type_traits>
 
 #include "pulse_kernels.hpp"
+#include "qamsight/detail/kernels.hpp"
 
 namespace qamsight {
 
@@ -214,23 +216,18 @@ void PolyphaseInterpolator<Sample>::process(std::span<const Sample> symbols,
                   "interpolator output length must be samples_per_symbol times the input length");
   const std::size_t L = static_cast<std::size_t>(sps_);
   const std::size_t K = phase_len_;
-  constexpr std::size_t lanes = detail::kBlockLanes<Real>;
-  constexpr std::size_t per_block = lanes / 2;  // complex outputs of one phase per kernel call
-  Real block[lanes];
   std::size_t done = 0;
   while (done < symbols.size()) {
     const std::size_t q_count = std::min(kInterpChunk, symbols.size() - done);
     std::copy_n(symbols.data() + done, q_count, line_.data() + (K - 1));
     const Real* line = reinterpret_cast<const Real*>(line_.data());
     Sample* out = samples.data() + done * L;
-    // A block past q_count reads stale line entries; those outputs are dropped. Computing
-    // whole blocks keeps every output on the same (vector) path.
-    for (std::size_t q0 = 0; q0 < q_count; q0 += per_block) {
-      const std::size_t nq = std::min(per_block, q_count - q0);
-      for (std::size_t p = 0; p < L; ++p) {
-        detail::phase_block(phase_taps_.data() + p * K, K, line + 2 * q0, block);
-        for (std::size_t j = 0; j < nq; ++j) out[(q0 + j) * L + p] = Sample(block[2 * j], block[2 * j + 1]);
-      }
+    // Whole blocks of outputs (pulse_kernels.hpp); float runs the dispatched kernel (AVX2 where
+    // the CPU has it, the same bits either way).
+    if constexpr (std::is_same_v<Real, float>) {
+      detail::kernels().interpolate_f32(phase_taps_.data(), L, K, line, q_count, reinterpret_cast<float*>(out));
+    } else {
+      detail::interpolate_chunk(phase_taps_.data(), L, K, line, q_count, out);
     }
     // Keep the last K-1 symbols as history (forward copy to lower addresses is overlap-safe).
     std::copy(line_.begin() + q_count, line_.begin() + q_count + (K - 1), line_.begin());
@@ -297,10 +294,16 @@ void MatchedDecimator<Sample>::process(std::span<const Sample> in, std::span<Sam
   while (done < in.size()) {
     const std::size_t n = std::min(chunk_, in.size() - done);
     std::copy_n(in.data() + done, n, line_.data() + hist);
+    // The window of the sample at chunk position j starts at line_[j]; outputs for j = skip_,
+    // skip_ + step, ... below n.
+    const Real* line = reinterpret_cast<const Real*>(line_.data());
+    if constexpr (std::is_same_v<Real, float>) {
+      m += detail::kernels().decimate_f32(t2, n2, line, skip_, n, step, reinterpret_cast<float*>(out.data() + m));
+    } else {
+      m += detail::decimate_chunk(t2, n2, line, skip_, n, step, out.data() + m);
+    }
     std::size_t j = skip_;
-    // The window of the sample at chunk position j starts at line_[j].
-    for (; j < n; j += step)
-      out[m++] = detail::dot_real_taps(t2, reinterpret_cast<const Real*>(line_.data() + j), n2);
+    if (j < n) j += ((n - 1 - j) / step + 1) * step;  // the first window start at or past n
     skip_ = j - n;
     std::copy(line_.begin() + n, line_.begin() + n + hist, line_.begin());  // overlap-safe
     done += n;

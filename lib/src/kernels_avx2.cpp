@@ -489,9 +489,39 @@ void evm_sums(const float* rx, const float* ref, std::size_t n, double* error_po
   *peak = m01 > m23 ? m01 : m23;
 }
 
+// interpolate_chunk with the block's 32 accumulators held in four registers (the compiler kept
+// the template's array on the stack): lane l of block q0 is still c[0] x[l] + c[1] x[2 + l] + ...
+// in that order, one rounding per multiply and per addition, as in the portable template.
 void interpolate_f32(const float* phase_taps, std::size_t L, std::size_t K, const float* line, std::size_t symbols,
                      float* out) {
-  interpolate_chunk(phase_taps, L, K, line, symbols, reinterpret_cast<std::complex<float>*>(out));
+  constexpr std::size_t per_block = kBlockLanes<float> / 2;
+  static_assert(per_block == 16);
+  alignas(32) float block[32];
+  for (std::size_t q0 = 0; q0 < symbols; q0 += per_block) {
+    const std::size_t nq = symbols - q0 < per_block ? symbols - q0 : per_block;
+    const float* x = line + 2 * q0;
+    for (std::size_t p = 0; p < L; ++p) {
+      const float* c = phase_taps + p * K;
+      __m256 a0 = _mm256_setzero_ps(), a1 = a0, a2 = a0, a3 = a0;
+      for (std::size_t i = 0; i < K; ++i) {
+        const __m256 ci = _mm256_broadcast_ss(c + i);
+        const float* xs = x + 2 * i;
+        a0 = _mm256_add_ps(a0, _mm256_mul_ps(ci, _mm256_loadu_ps(xs)));
+        a1 = _mm256_add_ps(a1, _mm256_mul_ps(ci, _mm256_loadu_ps(xs + 8)));
+        a2 = _mm256_add_ps(a2, _mm256_mul_ps(ci, _mm256_loadu_ps(xs + 16)));
+        a3 = _mm256_add_ps(a3, _mm256_mul_ps(ci, _mm256_loadu_ps(xs + 24)));
+      }
+      _mm256_store_ps(block, a0);
+      _mm256_store_ps(block + 8, a1);
+      _mm256_store_ps(block + 16, a2);
+      _mm256_store_ps(block + 24, a3);
+      float* o = out + 2 * (q0 * L + p);
+      for (std::size_t j = 0; j < nq; ++j) {
+        o[2 * j * L] = block[2 * j];
+        o[2 * j * L + 1] = block[2 * j + 1];
+      }
+    }
+  }
 }
 
 std::size_t decimate_f32(const float* taps2, std::size_t n2, const float* line, std::size_t first, std::size_t end,

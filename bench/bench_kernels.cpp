@@ -64,7 +64,7 @@ void gaussian32(benchmark::State& state, const KernelTable* k) {
 void noise(benchmark::State& state, const KernelTable* k) {
   std::vector<float> in(2 * kN, 0.5f), out(2 * kN);
   for (auto _ : state) {
-    k->noise_cf32(kStart, kN, 0.1, in.data(), out.data());
+    k->noise_cf32(kStart, kN, 0.1f, in.data(), out.data());
     benchmark::DoNotOptimize(out.data());
   }
   state.SetItemsProcessed(state.iterations() * std::int64_t(kN));  // complex samples
@@ -96,6 +96,36 @@ void slice(benchmark::State& state, const KernelTable* k) {
   }
   state.SetItemsProcessed(state.iterations() * std::int64_t(kN));
   state.SetBytesProcessed(state.iterations() * std::int64_t(4 * kN));
+}
+
+// RRC transmit shaping at 4 samples per symbol, span 12 (49 taps: 4 phases of 13), one frame of
+// kN symbols (items = output samples).
+void interpolate(benchmark::State& state, const KernelTable* k) {
+  constexpr std::size_t L = 4, K = 13;
+  std::vector<float> taps(L * K), line(2 * (K - 1 + kN + 16)), out(2 * L * kN);
+  k->philox_uniform_f32(kStart, taps.size() / 4, taps.data());
+  k->gaussian_f32(kStart, line.size() / 2, line.data());
+  for (auto _ : state) {
+    k->interpolate_f32(taps.data(), L, K, line.data(), kN, out.data());
+    benchmark::DoNotOptimize(out.data());
+  }
+  state.SetItemsProcessed(state.iterations() * std::int64_t(L * kN));
+  state.SetBytesProcessed(state.iterations() * std::int64_t(8 * L * kN));
+}
+
+// Matched filter and decimation by 4 over 4 kN samples (56 taps padded, items = input samples).
+void decimate(benchmark::State& state, const KernelTable* k) {
+  constexpr std::size_t n2 = 112, step = 4;
+  std::vector<float> taps2(n2), line(2 * 4 * kN + n2), out(2 * kN);
+  k->gaussian_f32(kStart, n2 / 2, taps2.data());
+  for (std::size_t i = 0; i < n2; i += 2) taps2[i + 1] = taps2[i];
+  k->gaussian_f32(kStart, line.size() / 2, line.data());
+  for (auto _ : state) {
+    benchmark::DoNotOptimize(k->decimate_f32(taps2.data(), n2, line.data(), 0, 4 * kN, step, out.data()));
+    benchmark::DoNotOptimize(out.data());
+  }
+  state.SetItemsProcessed(state.iterations() * std::int64_t(4 * kN));
+  state.SetBytesProcessed(state.iterations() * std::int64_t(8 * kN));
 }
 
 void count(benchmark::State& state, const KernelTable* k) {
@@ -137,6 +167,7 @@ const int kRegistered = [] {
   const std::pair<const char*, Fn> kernels[] = {
       {"PhiloxWords", words}, {"UniformF32", uniform}, {"GaussianF64", gaussian64}, {"GaussianF32", gaussian32},
       {"AwgnNoiseCf32", noise}, {"MapLabels64qam", map}, {"SliceSquareQam64", slice}, {"CountLabelErrors", count},
+      {"InterpolateRrc4x13", interpolate}, {"DecimateRrc4", decimate},
   };
   for (const KernelTable* t : qamsight::detail::available_kernels()) {
     for (const auto& [name, fn] : kernels) {

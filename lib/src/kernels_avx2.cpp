@@ -524,9 +524,48 @@ void interpolate_f32(const float* phase_taps, std::size_t L, std::size_t K, cons
   }
 }
 
+// decimate_chunk with the four outputs' accumulators in registers and the final sums done for
+// the four at once: the 16 lanes of an output are summed as re = ((0 + l0) + l2) + ... + l14,
+// im likewise over the odd lanes, exactly the portable template's order, after a transpose that
+// puts lane pair k of all four outputs in one vector.
 std::size_t decimate_f32(const float* taps2, std::size_t n2, const float* line, std::size_t first, std::size_t end,
                          std::size_t step, float* out) {
-  return decimate_chunk(taps2, n2, line, first, end, step, reinterpret_cast<std::complex<float>*>(out));
+  static_assert(kDotLanes<float> == 16);
+  std::size_t m = 0, j = first;
+  for (; j + 3 * step < end; j += 4 * step, m += 4) {
+    const float* x[4] = {line + 2 * j, line + 2 * (j + step), line + 2 * (j + 2 * step), line + 2 * (j + 3 * step)};
+    __m256 lo[4], hi[4];
+    for (int g = 0; g < 4; ++g) lo[g] = hi[g] = _mm256_setzero_ps();
+    for (std::size_t i = 0; i < n2; i += 16) {
+      const __m256 t0 = _mm256_loadu_ps(taps2 + i), t1 = _mm256_loadu_ps(taps2 + i + 8);
+      for (int g = 0; g < 4; ++g) {
+        lo[g] = _mm256_add_ps(lo[g], _mm256_mul_ps(t0, _mm256_loadu_ps(x[g] + i)));
+        hi[g] = _mm256_add_ps(hi[g], _mm256_mul_ps(t1, _mm256_loadu_ps(x[g] + i + 8)));
+      }
+    }
+    // Lane pairs as doubles: v[k] = (pair k of output 0, 1, 2, 3), k = 0..7.
+    __m256d v[8];
+    for (int h = 0; h < 2; ++h) {
+      const __m256* a = h == 0 ? lo : hi;
+      const __m256d p0 = _mm256_castps_pd(a[0]), p1 = _mm256_castps_pd(a[1]);
+      const __m256d p2 = _mm256_castps_pd(a[2]), p3 = _mm256_castps_pd(a[3]);
+      const __m256d u0 = _mm256_unpacklo_pd(p0, p1), u1 = _mm256_unpackhi_pd(p0, p1);
+      const __m256d u2 = _mm256_unpacklo_pd(p2, p3), u3 = _mm256_unpackhi_pd(p2, p3);
+      v[4 * h + 0] = _mm256_permute2f128_pd(u0, u2, 0x20);
+      v[4 * h + 1] = _mm256_permute2f128_pd(u1, u3, 0x20);
+      v[4 * h + 2] = _mm256_permute2f128_pd(u0, u2, 0x31);
+      v[4 * h + 3] = _mm256_permute2f128_pd(u1, u3, 0x31);
+    }
+    __m256 sum = _mm256_setzero_ps();
+    for (const __m256d& vk : v) sum = _mm256_add_ps(sum, _mm256_castpd_ps(vk));
+    _mm256_storeu_ps(out + 2 * m, sum);
+  }
+  for (; j < end; j += step, ++m) {
+    const std::complex<float> r = dot_real_taps(taps2, line + 2 * j, n2);
+    out[2 * m] = r.real();
+    out[2 * m + 1] = r.imag();
+  }
+  return m;
 }
 
 const KernelTable kAvx2Kernels = {

@@ -95,7 +95,7 @@ double isi_loss_db(const LinkConfig& link, double es_n0_db) {
 }
 
 std::uint64_t batch_frames(std::uint64_t batch_index) noexcept {
-  return batch_index >= 4 ? 64u : (4u << batch_index);
+  return batch_index >= 6 ? 256u : (4u << batch_index);
 }
 
 // ---------------------------------------------------------------------------------------------

@@ -118,7 +118,7 @@ def test_sweep_config_and_run_sweep():
     pts = qs.sweep_points(c)
     assert pts[0].modulation == "bpsk"
     assert pts[0].stream_key == qs.point_stream_key("bpsk", qs.SnrKind.eb_n0, 3.0)
-    assert [qs.batch_frames(b) for b in range(6)] == [4, 8, 16, 32, 64, 64]
+    assert [qs.batch_frames(b) for b in range(9)] == [4, 8, 16, 32, 64, 128, 256, 256, 256]
     assert qs.frame_stream(7, 3) == (7 << 32) | 3
     c.confidence = 2.0
     with pytest.raises(qs.ConfigError, match="confidence"):

@@ -611,7 +611,7 @@ void init_sim(py::module_& m) {
       "link"_a, "point"_a, "seed"_a, "frames"_a,
       "Runs frames 0 .. frames-1 of the link at `point` (one thread, GIL released) and keeps their\n"
       "symbols, for EVM analysis. Use sweep_points() for a PointSpec with its stream key.");
-  m.def("batch_frames", &batch_frames, "batch_index"_a, "Frames in batch number b: 4, 8, 16, 32, 64, 64, ...");
+  m.def("batch_frames", &batch_frames, "batch_index"_a, "Frames in batch number b: 4, 8, 16, 32, 64, 128, 256, 256, ...");
   m.def("frame_stream", &frame_stream, "stream_key"_a, "frame"_a,
         "Random-stream number of a frame of the point with stream_key.");
   m.def("point_stream_key", &point_stream_key, "modulation"_a, "kind"_a, "snr_db"_a,

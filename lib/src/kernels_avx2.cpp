@@ -5,6 +5,7 @@
 // used only after the dispatcher has checked the CPU (kernels_portable.cpp). Each function
 // mirrors its portable twin operation by operation; see detail/kernels.hpp for the contract.
 #include "qamsight/detail/kernels.hpp"
+#include "kernel_constants.hpp"
 #include "pulse_kernels.hpp"
 
 #if defined(__x86_64__) && defined(__AVX2__)
@@ -24,27 +25,7 @@ namespace {
 constexpr std::uint32_t kM0 = 0xD2511F53u, kM1 = 0xCD9E8D57u;
 constexpr std::uint32_t kW0 = 0x9E3779B9u, kW1 = 0xBB67AE85u;
 
-// The constants of kernels_portable.cpp (fdlibm log, sin and cos).
-constexpr double kLn2Hi = 6.93147180369123816490e-01, kLn2Lo = 1.90821492927058770002e-10;
-constexpr double kLg1 = 6.666666666666735130e-01, kLg2 = 3.999999999940941908e-01;
-constexpr double kLg3 = 2.857142874366239149e-01, kLg4 = 2.222219843214978396e-01;
-constexpr double kLg5 = 1.818357216161805012e-01, kLg6 = 1.531383769920937332e-01;
-constexpr double kLg7 = 1.479819860511658591e-01;
-constexpr double kS1 = -1.66666666666666324348e-01, kS2 = 8.33333333332248946124e-03;
-constexpr double kS3 = -1.98412698298579493134e-04, kS4 = 2.75573137070700676789e-06;
-constexpr double kS5 = -2.50507602534068634195e-08, kS6 = 1.58969099521155010221e-10;
-constexpr double kC1 = 4.16666666666666019037e-02, kC2 = -1.38888888888741095749e-03;
-constexpr double kC3 = 2.48015872894767294178e-05, kC4 = -2.75573143513906633035e-07;
-constexpr double kC5 = 2.08757232129817482790e-09, kC6 = -1.13596475577881948265e-11;
-constexpr double kAngleStep = 6.283185307179586232 * 0x1p-53;
-// The single-precision constants (Cephes log, sin, cos), as in kernels_portable.cpp.
-constexpr float kLogF[9] = {7.0376836292e-2f,  -1.1514610310e-1f, 1.1676998740e-1f,
-                            -1.2420140846e-1f, 1.4249322787e-1f,  -1.6668057665e-1f,
-                            2.0000714765e-1f,  -2.4999993993e-1f, 3.3333331174e-1f};
-constexpr float kLn2HiF = 0.693359375f, kLn2LoF = -2.12194440e-4f;
-constexpr float kSinF0 = -1.9515295891e-4f, kSinF1 = 8.3321608736e-3f, kSinF2 = -1.6666654611e-1f;
-constexpr float kCosF0 = 2.443315711809948e-5f, kCosF1 = -1.388731625493765e-3f, kCosF2 = 4.166664568298827e-2f;
-constexpr float kAngleStepF = static_cast<float>(6.283185307179586232 * 0x1p-24);
+using namespace constants;  // the coefficients of kernels_portable.cpp (kernel_constants.hpp)
 
 inline __m256d add(__m256d a, __m256d b) { return _mm256_add_pd(a, b); }
 inline __m256d sub(__m256d a, __m256d b) { return _mm256_sub_pd(a, b); }
@@ -251,9 +232,9 @@ inline void interleave8(__m256 g0, __m256 g1, __m256& first, __m256& second) {
   second = _mm256_permute2f128_ps(lo, hi, 0x31);
 }
 
-// Groups of eight blocks per step of the word, uniform and float Gaussian loops: four interleaved Philox groups
-// keep the multiplier busy (about 20% more blocks per second than two, measured on the build
-// machine; the 16 state vectors still fit the register file).
+// Groups of eight blocks per step of the word, uniform and float Gaussian loops: four
+// interleaved Philox groups keep the multiplier busy (about 20% more blocks per second than two,
+// measured on the build machine; the 16 state vectors still fit the register file).
 constexpr int kGroupsF = 4;
 constexpr std::size_t kStepF = 8 * kGroupsF;
 

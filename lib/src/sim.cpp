@@ -146,12 +146,7 @@ class SymbolRateRunner final : public FrameRunner {
   void run(std::uint64_t frame, FrameResult& out) override {
     const auto& c = link_.constellation_;
     simulate(frame);
-    if (coded_) {
-      out = FrameResult{};
-      coded_->receive(rx_, tx_labels_, link_.awgn_.noise_variance(), out.counts);
-      out.evm.add(rx_, tx_);
-      return;
-    }
+    const double n0 = link_.awgn_.noise_variance();
     std::span<const cf32> evm_symbols = rx_;
     if (stage_) {
       StageInput in;
@@ -159,13 +154,22 @@ class SymbolRateRunner final : public FrameRunner {
       in.samples = rx_;
       in.symbols = rx_;
       in.samples_per_symbol = 1;
-      in.noise_variance = link_.awgn_.noise_variance();
+      in.noise_variance = n0;
       in.constellation = &c;
       stage_->call(in, rx_labels_);
       if (stage_->returns_symbols()) evm_symbols = stage_->decision_symbols();
-    } else {
-      c.slice(rx_, rx_labels_);
     }
+    if (coded_) {
+      out = FrameResult{};
+      if (stage_) {
+        coded_->receive(*stage_, rx_labels_, tx_labels_, n0, out.counts);
+      } else {
+        coded_->receive(rx_, tx_labels_, n0, out.counts);
+      }
+      out.evm.add(evm_symbols, tx_);
+      return;
+    }
+    if (!stage_) c.slice(rx_, rx_labels_);
     out = FrameResult{};
     detail::count_label_errors(tx_labels_, rx_labels_, c.bits_per_symbol(), out.counts);
     out.counts.frames = 1;

@@ -49,9 +49,37 @@ void CodedFrame::receive(std::span<const cf32> decided, std::span<const std::uin
   QAMSIGHT_ASSERT(decided.size() == symbols() && sent.size() == symbols(), "coded frame: span of the wrong length");
   // Raw (pre-decoding) symbol decisions, for the channel's symbol error rate.
   constellation_.slice(decided, rx_labels_);
-  std::uint64_t symbol_errors = 0;
-  for (std::size_t i = 0; i < sent.size(); ++i) symbol_errors += sent[i] != rx_labels_[i];
   demapper_.process(decided, n0, llr_);
+  decode_and_count(rx_labels_, sent, out);
+}
+
+void CodedFrame::receive(const StageCaller& stage, std::span<const std::uint32_t> decisions,
+                         std::span<const std::uint32_t> sent, double n0, ErrorCounts& out) noexcept {
+  QAMSIGHT_ASSERT(decisions.size() == symbols() && sent.size() == symbols(), "coded frame: span of the wrong length");
+  switch (stage.kind()) {
+    case StageOutputKind::symbols:
+      demapper_.process(stage.decision_symbols(), n0, llr_);
+      break;
+    case StageOutputKind::llrs: {
+      const auto l = stage.llrs();
+      QAMSIGHT_ASSERT(l.size() == llr_.size(), "coded frame: stage LLRs of the wrong length");
+      std::copy(l.begin(), l.end(), llr_.begin());
+      break;
+    }
+    case StageOutputKind::bits: {
+      const auto b = stage.bits();
+      QAMSIGHT_ASSERT(b.size() == llr_.size(), "coded frame: stage bits of the wrong length");
+      for (std::size_t i = 0; i < b.size(); ++i) llr_[i] = b[i] ? -1.0f : 1.0f;
+      break;
+    }
+  }
+  decode_and_count(decisions, sent, out);
+}
+
+void CodedFrame::decode_and_count(std::span<const std::uint32_t> decisions, std::span<const std::uint32_t> sent,
+                                  ErrorCounts& out) noexcept {
+  std::uint64_t symbol_errors = 0;
+  for (std::size_t i = 0; i < sent.size(); ++i) symbol_errors += sent[i] != decisions[i];
   (void)decoder_->decode(std::span<const float>(llr_).first(code_->coded_bits()), decoded_);
   std::uint64_t bit_errors = 0;
   for (std::size_t i = 0; i < info_.size(); ++i) bit_errors += info_[i] != decoded_[i];

@@ -22,7 +22,11 @@ class StageCaller {
   /// symbol output (for EVM) when it returns symbols.
   void call(const StageInput& input, std::span<std::uint32_t> labels);
   bool returns_symbols() const noexcept { return stage_.output == StageOutputKind::symbols; }
+  StageOutputKind kind() const noexcept { return stage_.output; }
   std::span<const cf32> decision_symbols() const noexcept { return symbols_; }
+  /// The stage's LLRs (kind llrs) or hard bits (kind bits, reduced to 0/1) of the last call.
+  std::span<const float> llrs() const noexcept { return llrs_; }
+  std::span<const std::uint8_t> bits() const noexcept { return bits_; }
 
  private:
   const UserStage& stage_;
@@ -49,8 +53,18 @@ class CodedFrame {
   /// raw symbol decisions and their errors, and one frame to `out`.
   void receive(std::span<const cf32> decided, std::span<const std::uint32_t> sent, double n0,
                ErrorCounts& out) noexcept;
+  /// The same with a user stage in front of the decoder, after its call (`decisions` = the
+  /// labels StageCaller::call produced, the raw decisions): symbols go through the built-in
+  /// demapper with noise variance n0, LLRs straight to the decoder, hard bits as LLRs of +1
+  /// (bit 0) and -1 (bit 1), i.e. hard-decision decoding.
+  void receive(const StageCaller& stage, std::span<const std::uint32_t> decisions,
+               std::span<const std::uint32_t> sent, double n0, ErrorCounts& out) noexcept;
 
  private:
+  /// Decodes llr_ and adds the counts; `decisions` are the raw symbol decisions.
+  void decode_and_count(std::span<const std::uint32_t> decisions, std::span<const std::uint32_t> sent,
+                        ErrorCounts& out) noexcept;
+
   std::shared_ptr<const Code> code_;
   std::unique_ptr<Decoder> decoder_;
   LlrDemapper demapper_;

@@ -155,14 +155,6 @@ class WaveformRunner final : public FrameRunner {
     const auto& c = link_.constellation_;
     const std::span<const cf32> decided(z_.data() + link_.warmup_, link_.n_);
     const std::span<const std::uint32_t> sent(tx_labels_.data() + link_.warmup_, link_.n_);
-    if (coded_) {
-      // LLRs with the decision point's noise variance (the receiver's AWGN model; impairments
-      // beyond it make the LLRs mismatched, as in a real receiver).
-      out = FrameResult{};
-      coded_->receive(decided, sent, noise_at_decision_, out.counts);
-      out.evm.add(decided, std::span<const cf32>(tx_.data() + link_.warmup_, link_.n_));
-      return;
-    }
     std::span<const cf32> evm_symbols = decided;
     if (stage_) {
       StageInput in;
@@ -174,9 +166,20 @@ class WaveformRunner final : public FrameRunner {
       in.constellation = &c;
       stage_->call(in, rx_labels_);
       if (stage_->returns_symbols()) evm_symbols = stage_->decision_symbols();
-    } else {
-      c.slice(decided, rx_labels_);
     }
+    if (coded_) {
+      // LLRs with the decision point's noise variance (the receiver's AWGN model; impairments
+      // beyond it make the LLRs mismatched, as in a real receiver).
+      out = FrameResult{};
+      if (stage_) {
+        coded_->receive(*stage_, rx_labels_, sent, noise_at_decision_, out.counts);
+      } else {
+        coded_->receive(decided, sent, noise_at_decision_, out.counts);
+      }
+      out.evm.add(evm_symbols, std::span<const cf32>(tx_.data() + link_.warmup_, link_.n_));
+      return;
+    }
+    if (!stage_) c.slice(decided, rx_labels_);
     out = FrameResult{};
     count_label_errors(sent, rx_labels_, c.bits_per_symbol(), out.counts);
     out.counts.frames = 1;
@@ -319,9 +322,6 @@ void validate(const LinkConfig& link) {
   if (p.samples_per_symbol > 1) check_pulse_spec(detail::pulse_spec(link));
   if (!link.code.empty()) {
     (void)make_code(link.code);  // ConfigError "code" naming the allowed names
-    if (link.stage && link.stage->process) {
-      throw ConfigError("code", link.code, "no code with a user receiver stage (the stage replaces the decisions)");
-    }
   }
   const auto& im = link.impairments;
   if (!link.waveform()) return;

@@ -1,6 +1,7 @@
 """User receiver stages in Python: zero-copy inputs, outputs of three kinds, errors, threads."""
 import numpy as np
 import pytest
+from scipy import stats
 
 import qamsight as qs
 from conftest import counts_of
@@ -150,3 +151,39 @@ def test_keeping_the_views_is_refused():
 def test_stage_must_be_callable():
     with pytest.raises(TypeError, match="callable"):
         qs.sweep("qpsk", eb_n0_db=4.0, stage=42)
+
+
+def test_coded_sweep_with_a_numpy_demapper_stage():
+    # A custom QPSK demapper in front of the decoder: Gray QPSK (bit 0 at -1/sqrt 2 on each axis)
+    # has the exact LLR ln P(0)/P(1) = -2 sqrt(2) y / N0 per component (binary antipodal
+    # signalling in Gaussian noise of variance N0/2 per dimension). The Viterbi decoder is
+    # scale-invariant, so the coded counts must sit inside the built-in receiver's 99.9%
+    # interval; raw symbol decisions are the same signs, so symbol errors are equal. Hard bits
+    # decode much worse than soft LLRs (the soft-decision gain, about 2 dB: common practice).
+    kw = dict(eb_n0_db=2.5, code="conv-k7-r1/2", max_bits=4e5, min_errors=10**9, seed=5, threads=2)
+
+    def demapper(inp):
+        y = np.asarray(inp.symbols)
+        llr = np.empty(2 * len(y), np.float32)
+        llr[0::2] = -2.0 * np.sqrt(2.0) * y.real / inp.noise_variance
+        llr[1::2] = -2.0 * np.sqrt(2.0) * y.imag / inp.noise_variance
+        return llr
+
+    def hard(inp):
+        y = np.asarray(inp.symbols)
+        bits = np.empty(2 * len(y), np.uint8)
+        bits[0::2] = y.real > 0
+        bits[1::2] = y.imag > 0
+        return bits
+
+    ref = qs.sweep("qpsk", **kw).points[0]
+    soft = qs.sweep("qpsk", stage=demapper, stage_output="llrs", **kw).points[0]
+    hd = qs.sweep("qpsk", stage=hard, stage_output="bits", **kw).points[0]
+    assert ref.bit_errors > 50
+    assert soft.bits == ref.bits and soft.symbol_errors == ref.symbol_errors
+    # exact 99.9% Clopper-Pearson interval of the built-in BER (scipy.stats.beta quantiles)
+    lo = stats.beta.ppf(0.0005, ref.bit_errors, ref.bits - ref.bit_errors + 1)
+    hi = stats.beta.ppf(0.9995, ref.bit_errors + 1, ref.bits - ref.bit_errors)
+    assert lo <= soft.bit_errors / soft.bits <= hi
+    assert hd.symbol_errors == ref.symbol_errors
+    assert hd.bit_errors > 3 * ref.bit_errors

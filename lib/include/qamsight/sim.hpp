@@ -167,7 +167,9 @@ struct LinkConfig {
   /// variance and decoded; errors are counted on the information bits, a frame error is a
   /// codeword with any information-bit error. frame_symbols is then ceil(n / bits per symbol)
   /// and the configured value is ignored. Symbol errors count the raw (pre-decoding) slicer
-  /// decisions. A user receiver stage cannot be combined with a code.
+  /// decisions. With a user receiver stage the stage's output feeds the decoder: its symbols
+  /// through the built-in demapper, its LLRs directly, its hard bits as LLRs of +1 / -1
+  /// (hard-decision decoding); its raw decisions give the symbol errors.
   std::string code;
   /// LLR method of the coded receiver; empty = exact log-MAP up to 16 points, max-log above.
   std::optional<LlrMethod> llr;

@@ -3,6 +3,7 @@ import math
 
 import numpy as np
 import pytest
+from scipy import stats
 
 import qamsight as qs
 
@@ -89,3 +90,47 @@ def test_waveform_errors_are_value_errors_naming_the_field():
     from scipy import stats
     for pfa in (1e-10, 1e-4):
         assert math.isclose(qs.preamble_detection_threshold(pfa), stats.beta(16, 240).isf(pfa), rel_tol=1e-8)
+
+
+def test_impairment_chain_frequency_offset_and_rotation_in_closed_form():
+    # CFO f and rotation phi: y[n] = x[n] exp(j (2 pi f n / fs + phi)) (channel.hpp), evaluated in
+    # NumPy float64; the chain's float32 output agrees to float rounding, and cutting the input
+    # into two calls gives the same samples (the phase carries across calls).
+    fs = 4e6
+    cfg = qs.ImpairmentConfig(symbol_rate_hz=1e6, cfo_hz=1234.5, phase_deg=30.0)
+    rng = np.random.default_rng(3)
+    x = (rng.standard_normal(5000) + 1j * rng.standard_normal(5000)).astype(np.complex64)
+    n = np.arange(len(x))
+    ref = x * np.exp(1j * (2 * np.pi * 1234.5 * n / fs + np.deg2rad(30.0)))
+    chain = qs.ImpairmentChain(cfg, fs, 0.25)
+    assert not chain.empty
+    y = chain.process(qs.RandomStream(1, 0, qs.Substream.phase_noise), x)
+    assert y is not x and y.dtype == np.complex64
+    assert np.max(np.abs(y - ref)) < 1e-5 * np.max(np.abs(x))
+    chain.reset()
+    rs = qs.RandomStream(1, 0, qs.Substream.phase_noise)
+    a = x.copy()
+    chain.process(rs, a[:1234], out=a[:1234])
+    chain.process(rs, a[1234:], out=a[1234:])
+    assert np.array_equal(a, y)
+
+
+def test_impairment_chain_wiener_phase_noise_keeps_the_amplitude_and_has_the_right_spread():
+    # Wiener phase noise only: |y| = |x|; the phase increments of y / x have variance
+    # 2 pi linewidth / fs (channel.hpp, Wiener model), checked with a chi-square 99.9% band.
+    fs, lw = 1e6, 500.0
+    chain = qs.ImpairmentChain(qs.ImpairmentConfig(symbol_rate_hz=fs, phase_noise_linewidth_hz=lw), fs)
+    x = np.ones(200001, np.complex64)
+    y = chain.process(qs.RandomStream(2, 0, qs.Substream.phase_noise), x)
+    assert np.allclose(np.abs(y), 1.0, atol=1e-5)
+    d = np.diff(np.unwrap(np.angle(y.astype(np.complex128))))
+    var = 2 * np.pi * lw / fs
+    k = len(d)
+    lo, hi = stats.chi2.ppf([0.0005, 0.9995], k) / k
+    assert lo * var <= np.mean(d**2) <= hi * var
+    assert qs.ImpairmentChain(qs.ImpairmentConfig(), fs).empty
+
+
+def test_impairment_chain_rejects_a_bad_setting_with_its_name():
+    with pytest.raises(ValueError, match="offset_hz"):
+        qs.ImpairmentChain(qs.ImpairmentConfig(symbol_rate_hz=1e6, cfo_hz=3e6), 4e6)

@@ -254,6 +254,7 @@ _OPTIONAL = {
     "sync": ["PhaseLoopGains", "PhaseTracker", "PhaseTrackerConfig", "phase_loop_gains"],
     "waveform": [
         "CaptureFrame", "CaptureMeasurement", "CaptureReceiver", "CaptureRxConfig", "CaptureStatus", "FrameFormat",
+        "ImpairmentChain",
         "PREAMBLE_SYMBOLS", "RecordingFileSpec", "RecordingWriteReport", "WaveformDescription", "WaveformGenerator",
         "WaveformSpec", "capture_status_name", "preamble_detection_threshold", "preamble_symbols",
         "waveform_description", "write_waveform_recording",

@@ -47,6 +47,35 @@ void init_waveform(py::module_& m) {
       },
       "The 256 preamble symbols (read-only complex64 view of the library's table).");
 
+  py::class_<ImpairmentChain>(
+      m, "ImpairmentChain",
+      "The transmitter and propagation impairments of an ImpairmentConfig as one streaming block, in\n"
+      "the sweep's order: IQ imbalance, DC offset, amplifier, multipath, frequency offset, rotation,\n"
+      "Wiener phase noise, mask phase noise. State (phase walks, delay lines) carries across calls;\n"
+      "receiver settings (tracker, pilots) are not part of it.")
+      .def(py::init<const ImpairmentConfig&, double, double>(), "impairments"_a, "sample_rate_hz"_a,
+           "mean_power"_a = 1.0,
+           "mean_power: mean |x|^2 per input sample (1 / samples_per_symbol for a unit-energy shaped\n"
+           "signal). ValueError names a bad setting.")
+      .def(
+          "process",
+          [](ImpairmentChain& self, RandomStream& rng, py::handle samples, py::object out) {
+            auto in = input_array<cf32>(samples, "samples");
+            auto o = output_array<cf32>(out, shape_of(in), "out");
+            auto si = const_span(in);
+            auto so = mutable_span(o);
+            require_same_or_disjoint(si, so);
+            py::gil_scoped_release nogil;
+            if (so.data() != si.data()) std::copy(si.begin(), si.end(), so.begin());
+            self.process(rng, so);
+            return o;
+          },
+          "rng"_a, "samples"_a, "out"_a = py::none(),
+          "Applies the chain to complex64 samples, drawing phase noise from rng (Substream.phase_noise);\n"
+          "out may be the input itself (in place, no copy).")
+      .def("reset", &ImpairmentChain::reset, "Back to the state before the first sample.")
+      .def_property_readonly("empty", &ImpairmentChain::empty, "True if no impairment is configured.");
+
   py::class_<WaveformSpec>(m, "WaveformSpec",
                            "A test recording's settings (waveform.hpp); construct with keywords, e.g.\n"
                            "WaveformSpec(modulation='16qam', es_n0_db=25.0, symbols=20000).")

@@ -23,6 +23,7 @@ struct ModcodOptions {
   std::string llr = "auto";
   std::string csv, json;
   bool quiet = false, progress = false;
+  LinkOptions link;  ///< pulse shaping and impairments of the simulated link (as for sweep)
 };
 
 ModcodSimulationConfig to_config(const ModcodOptions& o) {
@@ -47,6 +48,7 @@ ModcodSimulationConfig to_config(const ModcodOptions& o) {
   c.confidence = o.confidence;
   c.seed = parse_count("--seed", o.seed);
   c.threads = o.threads;
+  apply_link_options(o.link, c.link);
   c.link.llr = parse_llr_option(o.llr);
   if (!(c.confidence > 0.0 && c.confidence < 1.0)) {
     throw UsageError("--confidence = " + format_number(c.confidence) + " is not allowed; allowed: strictly between 0 and 1");
@@ -129,6 +131,7 @@ void register_modcod(CLI::App& app) {
   s->add_option("--csv", o->csv, "Write the MODCOD table as CSV to FILE (the format `link` reads)");
   s->add_option("--json", o->json, "Write the MODCOD table as JSON to FILE (the format `link` reads)");
   s->add_flag("--quiet", o->quiet, "Do not print the table");
+  add_link_options(s, o->link);
   s->add_flag("--progress", o->progress, "Print one line per simulated point on stderr even when it is not a terminal");
   s->callback([o] { exit_status() = run(*o); });
 }

@@ -88,7 +88,11 @@ void apply_link_options(const LinkOptions& o, LinkConfig& link) {
   im.symbol_rate_hz = parse_real("--symbol-rate", o.symbol_rate);
   im.phase_noise_linewidth_hz = o.phase_noise_linewidth;
   if (!o.phase_noise_mask.empty()) {
-    im.phase_noise_mask = std::make_shared<const PhaseNoiseMask>(PhaseNoiseMask::from_csv(o.phase_noise_mask));
+    try {
+      im.phase_noise_mask = std::make_shared<const PhaseNoiseMask>(PhaseNoiseMask::from_csv(o.phase_noise_mask));
+    } catch (const InputError& e) {
+      throw InputError(std::string("--phase-noise-mask: ") + e.what());  // names the option and the file
+    }
   }
   im.cfo_hz = o.cfo_hz;
   im.phase_deg = o.phase_deg;

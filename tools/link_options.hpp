@@ -1,5 +1,5 @@
 // Command-line options of the waveform link (pulse shaping and impairments), shared by the
-// subcommands that build a link: sweep, waveform, evm.
+// subcommands that build a link: sweep, modcod, waveform, evm.
 #pragma once
 
 #include <CLI/CLI.hpp>

@@ -266,6 +266,10 @@ CASES = [
          "--min-errors 0", "--min-errors"),
     Case("modcod", "unknown LLR method", "modcod --code conv-k7-r1/2 --target-fer 1e-2 --esn0-range 0,4,1 "
          "--llr fast", "--llr"),
+    Case("modcod", "link option: zero samples per symbol", "modcod --code conv-k7-r1/2 --target-fer 1e-2 "
+         "--esn0-range 0,4,1 --sps 0", "--sps"),
+    Case("modcod", "link option: missing phase-noise mask", "modcod --code conv-k7-r1/2 --target-fer 1e-2 "
+         "--esn0-range 0,4,1 --sps 4 --phase-noise-mask nofile.csv", "--phase-noise-mask"),
     Case("modcod", "CSV output is a directory", "modcod --code conv-k7-r1/2 --target-fer 1e-2 "
          "--esn0-range 0,4,1 --csv outdir", "--csv", {"outdir": None}),
     Case("modcod", "JSON output in a missing folder", "modcod --code conv-k7-r1/2 --target-fer 1e-2 "

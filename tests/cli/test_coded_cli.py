@@ -1,5 +1,6 @@
 """End-to-end tests of coded sweeps (`qamsight sweep --code`) and `qamsight modcod`."""
 import csv
+import json
 import math
 import os
 import re
@@ -126,3 +127,23 @@ def test_modcod_outside_the_grid_writes_nothing(cli):
     assert res.returncode == 1
     assert "start the grid lower" in res.stdout
     assert not os.path.exists(out)
+
+
+def test_modcod_takes_the_sweep_link_options(cli):
+    # The same link options as `sweep`: with RRC shaping at 4 samples per symbol and a long span
+    # (negligible ISI) the noise is calibrated at the matched-filter output, so the threshold
+    # agrees with the symbol-rate one (95% intervals overlap); a 20-degree quadrature error (no
+    # power change at equal branch gains, channel.hpp) costs Es/N0: its interval lies above.
+    def threshold(*extra):
+        out = os.path.join(cli.tmp, "m.json")
+        cli.run("modcod", "--code", "conv-k7-r1/2", "--target-fer", "1e-1", "--esn0-range", "0,8,0.5",
+                "--min-errors", "50", "--json", out, "--quiet", *extra)
+        row = json.load(open(out))["modcods"][0]
+        lo, hi = map(float, re.search(r"interval ([-\d.]+) to ([-\d.]+) dB", row["source"]).groups())
+        return row["required_es_n0_db"], lo, hi
+
+    plain = threshold()
+    shaped = threshold("--sps", "4", "--span", "32")
+    skewed = threshold("--iq-phase-deg", "20")
+    assert shaped[1] <= plain[2] and plain[1] <= shaped[2], (plain, shaped)
+    assert skewed[1] > plain[2], (plain, skewed)

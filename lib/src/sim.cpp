@@ -7,6 +7,7 @@
 #include <cmath>
 #include <condition_variable>
 #include <cstring>
+#include <exception>
 #include <limits>
 #include <mutex>
 #include <optional>
@@ -319,17 +320,43 @@ class ThreadExecutor final : public FrameExecutor {
     }
     wake_.notify_all();
     work(0);
-    std::unique_lock lock(mutex_);
-    done_.wait(lock, [this] { return busy_ == 0; });
+    std::exception_ptr error;
+    {
+      std::unique_lock lock(mutex_);
+      done_.wait(lock, [this] { return busy_ == 0; });
+      error = std::move(error_);
+      error_ = nullptr;
+      error_frame_ = kNoFrame;
+    }
+    if (error) {
+      // The failing runner may be half-way through a frame: start the next batch afresh.
+      for (auto& r : runners_) r.reset();
+      current_link_id_ = 0;
+      std::rethrow_exception(error);
+    }
   }
 
  private:
-  void work(unsigned w) {
+  static constexpr std::size_t kNoFrame = std::numeric_limits<std::size_t>::max();
+
+  // An exception from a frame (a user stage that throws, an allocation failure) is kept, the
+  // remaining frames of the batch still run, and run() rethrows the exception of the lowest
+  // frame, so what the caller sees does not depend on how the threads interleaved.
+  void work(unsigned w) noexcept {
     for (;;) {
       const std::size_t i = next_.fetch_add(1, std::memory_order_relaxed);
       if (i >= job_out_.size()) break;
-      if (!runners_[w]) runners_[w] = current_link_->make_runner();
-      runners_[w]->run(job_first_ + i, job_out_[i]);
+      try {
+        if (!runners_[w]) runners_[w] = current_link_->make_runner();
+        runners_[w]->run(job_first_ + i, job_out_[i]);
+      } catch (...) {
+        std::exception_ptr dropped = std::current_exception();
+        std::lock_guard lock(mutex_);
+        if (i < error_frame_) {
+          std::swap(dropped, error_);
+          error_frame_ = i;
+        }
+      }
     }
   }
 
@@ -364,6 +391,8 @@ class ThreadExecutor final : public FrameExecutor {
   std::uint64_t job_first_ = 0;
   std::span<FrameResult> job_out_;
   std::atomic<std::size_t> next_{0};
+  std::exception_ptr error_;             // guarded by mutex_
+  std::size_t error_frame_ = kNoFrame;   // guarded by mutex_
 };
 
 }  // namespace

@@ -197,3 +197,35 @@ TEST_CASE("user stages: symbols, LLRs or bits replace the built-in decisions", "
   const auto w = run_sweep(c).points[0];
   CHECK(w.counts.bit_errors == w.counts.bits - plain.points[0].counts.bit_errors);
 }
+
+TEST_CASE("a user stage that throws: run_sweep rethrows the lowest failing frame's exception", "[sim]") {
+  // Frames 2 (first batch of 4) and 3 fail; with 1, 2 or 3 threads the caller must see frame 2,
+  // never a crash (an exception leaving a pool thread would end the process) and never frame 3.
+  SweepConfig c;
+  c.modulations = {"qpsk"};
+  c.snr_db = {6.0};
+  c.stop.max_bits = 1'000'000;
+  c.stop.min_bit_errors = 1'000'000'000;
+  auto failing = std::make_shared<UserStage>();
+  failing->output = StageOutputKind::symbols;
+  failing->process = [](const StageInput& in, StageOutput& out) {
+    if (in.frame == 2 || in.frame == 3) throw std::runtime_error("frame " + std::to_string(in.frame));
+    std::copy(in.symbols.begin(), in.symbols.end(), out.symbols.begin());
+  };
+  c.link.stage = failing;
+  for (unsigned threads : {1u, 2u, 3u}) {
+    c.threads = threads;
+    for (int repeat = 0; repeat < 20; ++repeat) {
+      INFO("threads " << threads << ", repeat " << repeat);
+      CHECK_THROWS_WITH(run_sweep(c), "frame 2");
+    }
+  }
+  // The executor is usable again after a failure: a healthy stage gives the plain counts.
+  auto executor = make_thread_executor(2);
+  SweepHooks hooks;
+  hooks.executor = executor.get();
+  CHECK_THROWS_WITH(run_sweep(c, hooks), "frame 2");
+  c.link.stage.reset();
+  c.threads = 2;
+  CHECK(run_sweep(c, hooks).points[0].counts == run_sweep(c).points[0].counts);
+}

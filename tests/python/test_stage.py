@@ -106,6 +106,19 @@ def test_exception_in_stage_propagates_unchanged_and_stops_the_sweep():
     assert max(calls) < 12 and calls.count(5) == 1
 
 
+def test_the_lowest_failing_frame_is_reported_for_any_thread_count():
+    # Every frame from 1 on fails; which one Python sees must not depend on the threads' race.
+    def stage(inp):
+        if inp.frame >= 1:
+            raise RuntimeError(f"frame {inp.frame}")
+        return inp.symbols
+
+    for threads in (1, 2, 3):
+        for _ in range(10):
+            with pytest.raises(RuntimeError, match=r"^frame 1$"):
+                qs.sweep("qpsk", eb_n0_db=4.0, max_bits=1e9, min_errors=10**9, threads=threads, stage=stage)
+
+
 @pytest.mark.parametrize("ret,kind,needle", [
     (lambda inp: inp.symbols[:10], "symbols", "one-dimensional complex64 array of 2048 values; got complex64 "
                                                "array of shape (10,)"),

@@ -2,6 +2,7 @@
 
 #include <atomic>
 #include <exception>
+#include <limits>
 #include <map>
 #include <memory>
 #include <mutex>
@@ -28,25 +29,38 @@ namespace {
 //
 // Errors: nothing may leave the C++ callable (it runs on pool threads). An exception raised
 // by the Python function, or by the check of its return value, is stored in the ErrorSlot
-// (the first one wins), the sweep's cancel flag is set, and every later frame gets a harmless
-// output without calling Python. run_sweep stops at the next batch boundary; the binding then
+// (the failure of the lowest frame wins, so the error a sweep reports does not depend on how
+// the threads ran), the sweep's cancel flag is set, and every later frame gets a harmless
+// output without calling Python (frames below the failed one still run and may take over). run_sweep stops at the next batch boundary; the binding then
 // rethrows the stored exception on the caller's thread with the GIL held, so Python sees the
 // original exception object (type, message, traceback).
 // ---------------------------------------------------------------------------------------------
 
 struct ErrorSlot {
   std::atomic<bool> cancel{false};
+  /// The lowest frame whose failure is stored; no failure: the maximum.
+  std::atomic<std::uint64_t> failed_frame{std::numeric_limits<std::uint64_t>::max()};
   std::mutex mutex;
   std::exception_ptr error;
 
-  void fail(std::exception_ptr e) {
+  /// Stores `e` if it comes from a lower frame than the stored failure. Interruptions that
+  /// belong to no frame pass frame 0 and win. Called without the GIL.
+  void fail(std::exception_ptr e, std::uint64_t frame) {
+    std::exception_ptr dropped;  // destroyed after the lock is released
     {
       std::lock_guard lock(mutex);
-      if (!error) error = std::move(e);
+      if (!error || frame < failed_frame.load()) {
+        dropped = std::move(error);
+        error = std::move(e);
+        failed_frame.store(frame);
+      } else {
+        dropped = std::move(e);
+      }
     }
     cancel.store(true);
   }
-  bool failed() const { return cancel.load(); }
+  /// Whether frame `frame` still has to call Python (no failure at or below it so far).
+  bool runs(std::uint64_t frame) const { return frame < failed_frame.load(); }
   void rethrow_if_failed() {
     std::exception_ptr e;
     {
@@ -104,15 +118,15 @@ class StageBridge {
 
   /// The C++ UserStage::process. Never throws.
   void call(const StageInput& in, StageOutput& out) noexcept {
-    if (!slot_.failed()) {
+    if (slot_.runs(in.frame)) {
       try {
         py::gil_scoped_acquire gil;
-        if (!slot_.failed()) {
+        if (slot_.runs(in.frame)) {
           run_python(in, out);
           return;
         }
       } catch (...) {
-        slot_.fail(std::current_exception());
+        slot_.fail(std::current_exception(), in.frame);
       }
     }
     harmless(in, out);
@@ -287,7 +301,7 @@ SweepResult run_python_sweep(SweepConfig config, const py::object& stage, const 
       py::gil_scoped_acquire gil;
       if (PyErr_CheckSignals() != 0) throw py::error_already_set();
     } catch (...) {
-      slot.fail(std::current_exception());
+      slot.fail(std::current_exception(), 0);
     }
   };
   SweepResult result;

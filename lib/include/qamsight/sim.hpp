@@ -95,7 +95,9 @@ struct StageOutput {
 /// A receiver stage written by the user (an equaliser, demapper or synchroniser) that
 /// replaces the built-in decisions. Called once per frame, possibly from several threads at
 /// once unless `serialise` is set (then calls take a lock; a Python stage sets it). Results stay
-/// reproducible because the inputs depend only on the frame index.
+/// reproducible because the inputs depend only on the frame index. `process` may throw: the
+/// rest of the batch still runs, then run_sweep throws the exception of the lowest failing
+/// frame (the same one for any number of threads) and the sweep's results are discarded.
 struct UserStage {
   StageOutputKind output = StageOutputKind::symbols;
   std::function<void(const StageInput&, StageOutput&)> process;

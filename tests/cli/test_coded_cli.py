@@ -74,8 +74,19 @@ def test_frame_error_stop_rule_and_table_columns(cli):
     assert "FER" in header and "frames" in header and "code" in header
     row = res.stdout.splitlines()[2].split()
     assert row[-1] == "min_frame_errors"
-    frame_errors = int(row[row.index("ldpc-648-r1/2") + 8])
-    assert 20 <= frame_errors < 20 + 64  # stops at the first batch boundary past 20
+    frames = int(row[row.index("ldpc-648-r1/2") + 8])
+    frame_errors = int(row[row.index("ldpc-648-r1/2") + 9])
+    # The rule is evaluated at batch boundaries (batches of 4, 8, ..., 256, 256, ... frames:
+    # sim.hpp batch_frames), so the run ends at a boundary, with at least 20 frame errors, and had
+    # fewer than 20 at the boundary before: at most the last batch's frames more than 20.
+    boundaries, total, size = [], 0, 4
+    while total < 10**5:
+        total += size
+        boundaries.append(total)
+        size = min(2 * size, 256)
+    assert frames in boundaries
+    previous = ([0] + boundaries)[boundaries.index(frames)]
+    assert 20 <= frame_errors < 20 + (frames - previous)
 
 
 def test_resume_refuses_a_different_code(cli):

@@ -31,6 +31,16 @@ void words(benchmark::State& state, const KernelTable* k) {
   state.SetBytesProcessed(state.iterations() * std::int64_t(16 * kN));
 }
 
+void packed_labels(benchmark::State& state, const KernelTable* k) {
+  std::vector<std::uint32_t> out(kN);
+  for (auto _ : state) {
+    k->philox_packed_labels(kStart, kN, 6, out.data());  // 64-QAM payload: five labels per word
+    benchmark::DoNotOptimize(out.data());
+  }
+  state.SetItemsProcessed(state.iterations() * std::int64_t(kN));
+  state.SetBytesProcessed(state.iterations() * std::int64_t(4 * kN));
+}
+
 void uniform(benchmark::State& state, const KernelTable* k) {
   std::vector<float> out(4 * kN);
   for (auto _ : state) {
@@ -165,7 +175,7 @@ BENCHMARK(BM_SymbolRateFrame)->Arg(1024)->Arg(4096)->Arg(16384)->Arg(65536);
 const int kRegistered = [] {
   using Fn = void (*)(benchmark::State&, const KernelTable*);
   const std::pair<const char*, Fn> kernels[] = {
-      {"PhiloxWords", words}, {"UniformF32", uniform}, {"GaussianF64", gaussian64}, {"GaussianF32", gaussian32},
+      {"PhiloxWords", words}, {"PackedLabels64qam", packed_labels}, {"UniformF32", uniform}, {"GaussianF64", gaussian64}, {"GaussianF32", gaussian32},
       {"AwgnNoiseCf32", noise}, {"MapLabels64qam", map}, {"SliceSquareQam64", slice}, {"CountLabelErrors", count},
       {"InterpolateRrc4x13", interpolate}, {"DecimateRrc4", decimate},
   };

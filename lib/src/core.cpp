@@ -168,13 +168,18 @@ void RandomStream::fill_uniform(std::span<float> out) noexcept {
 
 void RandomStream::fill_gaussian(std::span<float> out) noexcept {
   used_ = 4;
-  const std::size_t pairs = out.size() / 2;
-  detail::kernels().gaussian_f32(philox_start(counter_, key_), pairs, out.data());
-  counter_[0] += static_cast<std::uint32_t>(pairs);
+  const std::size_t pairs = (out.size() + 1) / 2;  // an odd count uses the first half of a last pair
+  const detail::PhiloxStart start = philox_start(counter_, key_);
+  detail::kernels().gaussian_f32(start, out.size() / 2, out.data());
   if (out.size() % 2) {
-    const auto b = next_block();
-    out.back() = box_muller_f32(b[0], b[1], b[2], b[3])[0];
+    const std::size_t p = pairs - 1, b = p / 2;
+    const PhiloxCounter c{counter_[0] + static_cast<std::uint32_t>(b), counter_[1], counter_[2], counter_[3]};
+    const auto w = philox4x32(c, key_);
+    const unsigned h = static_cast<unsigned>(p % 2);
+    float g1;
+    detail::gaussian_pair_f32_at(start, b, h, w[2 * h], w[2 * h + 1], &out.back(), &g1);
   }
+  counter_[0] += static_cast<std::uint32_t>((pairs + 1) / 2);
 }
 
 void RandomStream::fill_gaussian(std::span<double> out) noexcept {
@@ -193,14 +198,14 @@ void RandomStream::fill_complex_gaussian(std::span<cf32> out, double variance) n
   const double sigma = std::sqrt(variance / 2.0);
   detail::kernels().noise_cf32(philox_start(counter_, key_), out.size(), static_cast<float>(sigma), nullptr,
                                reinterpret_cast<float*>(out.data()));
-  counter_[0] += static_cast<std::uint32_t>(out.size());
+  counter_[0] += static_cast<std::uint32_t>((out.size() + 1) / 2);
 }
 
 void RandomStream::add_complex_noise(std::span<const cf32> in, std::span<cf32> out, double sigma) noexcept {
   used_ = 4;
   detail::kernels().noise_cf32(philox_start(counter_, key_), in.size(), static_cast<float>(sigma),
                                reinterpret_cast<const float*>(in.data()), reinterpret_cast<float*>(out.data()));
-  counter_[0] += static_cast<std::uint32_t>(in.size());
+  counter_[0] += static_cast<std::uint32_t>((in.size() + 1) / 2);
 }
 
 void RandomStream::fill_labels(std::span<std::uint32_t> out, unsigned bits) noexcept {
@@ -216,6 +221,17 @@ void RandomStream::fill_labels(std::span<std::uint32_t> out, unsigned bits) noex
   detail::kernels().philox_words(philox_start(counter_, key_), blocks, shift, out.data() + i);
   counter_[0] += static_cast<std::uint32_t>(blocks);
   for (i += 4 * blocks; i < n; ++i) out[i] = next_u32() >> shift;
+}
+
+void RandomStream::fill_packed_labels(std::span<std::uint32_t> out, unsigned bits) noexcept {
+  used_ = 4;
+  if (bits == 0u || bits > 32u) {  // as fill_labels: no bits, no randomness
+    for (auto& v : out) v = 0u;
+    return;
+  }
+  const std::size_t group = 8u * (32u / bits);
+  detail::kernels().philox_packed_labels(philox_start(counter_, key_), out.size(), bits, out.data());
+  counter_[0] += static_cast<std::uint32_t>(2 * ((out.size() + group - 1) / group));
 }
 
 void RandomStream::fill_bits(std::span<std::uint8_t> out) noexcept {

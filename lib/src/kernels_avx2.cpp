@@ -196,17 +196,17 @@ inline __m256 log_unit8(__m256 u) {
   return addf(addf(f, y), mulf(cstf(kLn2HiF), e));
 }
 
-// The single-precision Gaussian pairs of eight blocks: g0[l], g1[l] of block l.
-inline void gaussian8_f32(const Blocks8& b, __m256& g0, __m256& g1) {
-  const __m256 hi = mulf(_mm256_cvtepi32_ps(_mm256_srli_epi32(b.c[0], 8)), cstf(0x1p-24f));
-  const __m256i midi = _mm256_or_si256(_mm256_slli_epi32(_mm256_and_si256(b.c[0], cst32(0xffu)), 16),
-                                       _mm256_srli_epi32(b.c[1], 16));
+// The single-precision Gaussian pairs of eight lanes: gaussian_pair_f32(w0[l], w1[l], w2[l]).
+inline void gaussian8_f32(__m256i w0, __m256i w1, __m256i w2, __m256& g0, __m256& g1) {
+  const __m256 hi = mulf(_mm256_cvtepi32_ps(_mm256_srli_epi32(w0, 8)), cstf(0x1p-24f));
+  const __m256i midi = _mm256_or_si256(_mm256_slli_epi32(_mm256_and_si256(w0, cst32(0xffu)), 16),
+                                       _mm256_srli_epi32(w1, 16));
   const __m256 mid = mulf(_mm256_cvtepi32_ps(midi), cstf(0x1p-48f));
-  const __m256 lo = addf(mulf(_mm256_cvtepi32_ps(_mm256_and_si256(b.c[1], cst32(0xffffu))), cstf(0x1p-64f)),
+  const __m256 lo = addf(mulf(_mm256_cvtepi32_ps(_mm256_and_si256(w1, cst32(0xffffu))), cstf(0x1p-64f)),
                          cstf(0x1p-65f));
   const __m256 u = addf(hi, addf(mid, lo));
   const __m256 radius = _mm256_sqrt_ps(mulf(cstf(-2.0f), log_unit8(u)));
-  const __m256i k = _mm256_srli_epi32(b.c[2], 8);
+  const __m256i k = _mm256_srli_epi32(w2, 8);
   const __m256i j = _mm256_srli_epi32(_mm256_add_epi32(k, cst32(1u << 21)), 22);
   const __m256i rem = _mm256_sub_epi32(k, _mm256_slli_epi32(j, 22));
   const __m256 a = mulf(_mm256_cvtepi32_ps(rem), cstf(kAngleStepF));
@@ -223,13 +223,6 @@ inline void gaussian8_f32(const Blocks8& b, __m256& g0, __m256& g1) {
   s = _mm256_xor_ps(s, _mm256_castsi256_ps(_mm256_slli_epi32(_mm256_and_si256(j, two), 30)));
   g0 = mulf(radius, c);
   g1 = mulf(radius, s);
-}
-
-// (g0, g1) of eight blocks interleaved in block order: samples 0..3, then 4..7.
-inline void interleave8(__m256 g0, __m256 g1, __m256& first, __m256& second) {
-  const __m256 lo = _mm256_unpacklo_ps(g0, g1), hi = _mm256_unpackhi_ps(g0, g1);
-  first = _mm256_permute2f128_ps(lo, hi, 0x20);
-  second = _mm256_permute2f128_ps(lo, hi, 0x31);
 }
 
 // Groups of eight blocks per step of the word, uniform and float Gaussian loops: four
@@ -267,6 +260,36 @@ void philox_words(const PhiloxStart& s, std::size_t blocks, unsigned shift, std:
   }
 }
 
+void philox_packed_labels(const PhiloxStart& s, std::size_t n, unsigned bits, std::uint32_t* out) {
+  const unsigned per = 32u / bits;
+  const __m256i mask = cst32(bits == 32u ? 0xffffffffu : (1u << bits) - 1u);
+  const std::size_t group = 8u * per;                  // labels per eight words
+  const std::size_t step = 4u * kGroupsF * group;       // labels per Philox step (kStepF blocks)
+  for (std::size_t i = 0, b = 0; i < n; i += step, b += kStepF) {
+    Blocks8 g[kGroupsF];
+    philox8<kGroupsF>(s, b, g);
+    __m256i w[4 * kGroupsF];
+    for (int h = 0; h < kGroupsF; ++h) store_words(g[h], w + 4 * h);  // w[v]: words 8v .. 8v + 7
+    for (int v = 0; v < 4 * kGroupsF; ++v) {
+      const std::size_t first = i + static_cast<std::size_t>(v) * group;
+      if (first >= n) break;
+      for (unsigned k = 0; k < per; ++k) {
+        const std::size_t at = first + 8u * k;
+        if (at >= n) break;
+        const __m128i sh = _mm_cvtsi32_si128(static_cast<int>(32u - bits * (k + 1)));
+        const __m256i labels = _mm256_and_si256(_mm256_srl_epi32(w[v], sh), mask);
+        if (at + 8 <= n) {
+          _mm256_storeu_si256(reinterpret_cast<__m256i*>(out + at), labels);
+        } else {
+          alignas(32) std::uint32_t t[8];
+          _mm256_store_si256(reinterpret_cast<__m256i*>(t), labels);
+          std::memcpy(out + at, t, (n - at) * sizeof(std::uint32_t));
+        }
+      }
+    }
+  }
+}
+
 void philox_uniform_f32(const PhiloxStart& s, std::size_t blocks, float* out) {
   for (std::size_t b = 0; b < blocks; b += kStepF) {
     Blocks8 g[kGroupsF];
@@ -296,47 +319,76 @@ void gaussian_f64(const PhiloxStart& s, std::size_t blocks, double* out) {
   }
 }
 
-// The 2 kStepF floats of kStepF blocks in block order (g0, g1 of block 0, then block 1, ...),
-// times sigma.
-inline void gaussian_step_f32(const PhiloxStart& st, std::size_t first, __m256 sigma, __m256 out[2 * kGroupsF]) {
+// The 4 kStepF floats of the 2 kStepF single-precision pairs of kStepF blocks (pair order: block
+// l gives pairs 2l and 2l + 1), times sigma. Every lane is computed with the extension word 2^31;
+// the rare lanes whose radial word is below 2^24 (one pair in 256) are redone by the scalar
+// definition, so the result is bit-identical to the portable path.
+inline void gaussian_step_f32(const PhiloxStart& st, std::size_t first, float sigma, float out[4 * kStepF]) {
   Blocks8 b[kGroupsF];
   philox8<kGroupsF>(st, first, b);
+  const __m256i middle = cst32(0x80000000u), zero = _mm256_setzero_si256();
+  const __m256 sg = cstf(sigma);
+  unsigned extend[kGroupsF];
+  unsigned any = 0;
   for (int h = 0; h < kGroupsF; ++h) {
-    __m256 g0, g1;
-    gaussian8_f32(b[h], g0, g1);
-    interleave8(mulf(sigma, g0), mulf(sigma, g1), out[2 * h], out[2 * h + 1]);
+    __m256 a0, a1, b0, b1;
+    gaussian8_f32(b[h].c[0], middle, b[h].c[1], a0, a1);  // pairs 2l
+    gaussian8_f32(b[h].c[2], middle, b[h].c[3], b0, b1);  // pairs 2l + 1
+    const Blocks8 t{{_mm256_castps_si256(mulf(sg, a0)), _mm256_castps_si256(mulf(sg, a1)),
+                     _mm256_castps_si256(mulf(sg, b0)), _mm256_castps_si256(mulf(sg, b1))}};
+    __m256i w[4];
+    store_words(t, w);  // block-major: re, im of pair 2l, then of pair 2l + 1
+    std::memcpy(out + 32 * h, w, sizeof w);
+    const auto low0 = static_cast<unsigned>(
+        _mm256_movemask_ps(_mm256_castsi256_ps(_mm256_cmpeq_epi32(_mm256_srli_epi32(b[h].c[0], 24), zero))));
+    const auto low2 = static_cast<unsigned>(
+        _mm256_movemask_ps(_mm256_castsi256_ps(_mm256_cmpeq_epi32(_mm256_srli_epi32(b[h].c[2], 24), zero))));
+    extend[h] = low0 | (low2 << 8);
+    any |= extend[h];
   }
-}
-
-void gaussian_f32(const PhiloxStart& s, std::size_t blocks, float* out) {
-  // sigma = 1 multiplies exactly, so these are the pairs themselves.
-  const __m256 one = cstf(1.0f);
-  for (std::size_t b = 0; b < blocks; b += kStepF) {
-    __m256 v[2 * kGroupsF];
-    gaussian_step_f32(s, b, one, v);
-    if (b + kStepF <= blocks) {
-      std::memcpy(out + 2 * b, v, sizeof v);
-    } else {
-      std::memcpy(out + 2 * b, v, 8 * (blocks - b));
+  if (!any) return;
+  for (int h = 0; h < kGroupsF; ++h) {
+    if (!extend[h]) continue;
+    alignas(32) std::uint32_t words[4][8];
+    for (int j = 0; j < 4; ++j) _mm256_store_si256(reinterpret_cast<__m256i*>(words[j]), b[h].c[j]);
+    for (unsigned bits = extend[h]; bits; bits &= bits - 1) {
+      const unsigned bit = static_cast<unsigned>(std::countr_zero(bits));
+      const unsigned lane = bit & 7u, half = bit >> 3;
+      const std::size_t block = 8 * static_cast<std::size_t>(h) + lane;
+      float g0, g1;
+      gaussian_pair_f32_at(st, first + block, half, words[2 * half][lane], words[2 * half + 1][lane], &g0, &g1);
+      out[4 * block + 2 * half] = sigma * g0;
+      out[4 * block + 2 * half + 1] = sigma * g1;
     }
   }
 }
 
-void noise_cf32(const PhiloxStart& s, std::size_t blocks, float sigma, const float* in, float* out) {
-  const __m256 sg = cstf(sigma);
+void gaussian_f32(const PhiloxStart& s, std::size_t pairs, float* out) {
+  // sigma = 1 multiplies exactly, so these are the pairs themselves.
+  const std::size_t blocks = (pairs + 1) / 2;
   for (std::size_t b = 0; b < blocks; b += kStepF) {
-    __m256 v[2 * kGroupsF];
-    gaussian_step_f32(s, b, sg, v);
-    if (b + kStepF <= blocks) {
-      for (int k = 0; k < 2 * kGroupsF; ++k) {
-        const __m256 y = in ? _mm256_add_ps(_mm256_loadu_ps(in + 2 * b + 8 * k), v[k]) : v[k];
-        _mm256_storeu_ps(out + 2 * b + 8 * k, y);
+    alignas(32) float v[4 * kStepF];
+    gaussian_step_f32(s, b, 1.0f, v);
+    const std::size_t m = std::min<std::size_t>(4 * kStepF, 2 * pairs - 4 * b);
+    std::memcpy(out + 4 * b, v, m * sizeof(float));
+  }
+}
+
+void noise_cf32(const PhiloxStart& s, std::size_t pairs, float sigma, const float* in, float* out) {
+  const std::size_t blocks = (pairs + 1) / 2;
+  for (std::size_t b = 0; b < blocks; b += kStepF) {
+    alignas(32) float v[4 * kStepF];
+    gaussian_step_f32(s, b, sigma, v);
+    float* o = out + 4 * b;
+    if (2 * pairs - 4 * b >= 4 * kStepF) {
+      for (std::size_t k = 0; k < 4 * kStepF; k += 8) {
+        const __m256 y = in ? _mm256_add_ps(_mm256_loadu_ps(in + 4 * b + k), _mm256_load_ps(v + k))
+                            : _mm256_load_ps(v + k);
+        _mm256_storeu_ps(o + k, y);
       }
     } else {
-      float t[16 * kGroupsF];
-      std::memcpy(t, v, sizeof t);
-      const std::size_t m = 2 * (blocks - b);
-      for (std::size_t k = 0; k < m; ++k) out[2 * b + k] = in ? in[2 * b + k] + t[k] : t[k];
+      const std::size_t m = 2 * pairs - 4 * b;
+      for (std::size_t k = 0; k < m; ++k) o[k] = in ? in[4 * b + k] + v[k] : v[k];
     }
   }
 }
@@ -550,7 +602,7 @@ std::size_t decimate_f32(const float* taps2, std::size_t n2, const float* line, 
 }
 
 const KernelTable kAvx2Kernels = {
-    "avx2",           philox_words,       philox_uniform_f32, gaussian_f64, gaussian_f32, noise_cf32, map_labels,
+    "avx2",           philox_words,       philox_packed_labels, philox_uniform_f32, gaussian_f64, gaussian_f32, noise_cf32, map_labels,
     slice_square_qam, count_label_errors, evm_sums,       interpolate_f32,    decimate_f32,
 };
 

@@ -136,6 +136,17 @@ void gaussian_pair_f32(std::uint32_t w0, std::uint32_t w1, std::uint32_t w2, std
   *g1 = radius * s;
 }
 
+void gaussian_pair_f32_at(const PhiloxStart& s, std::size_t b, unsigned h, std::uint32_t radial,
+                          std::uint32_t angle, float* g0, float* g1) noexcept {
+  std::uint32_t extension = 0x80000000u;  // the middle of the 2^-32 cell (see kernels.hpp)
+  if (radial < kRadialExtendBelow) {
+    const PhiloxCounter c{s.counter[0] + static_cast<std::uint32_t>(b), s.counter[1] ^ kExtensionSubstreamBit,
+                          s.counter[2], s.counter[3]};
+    extension = philox4x32(c, PhiloxKey{s.key[0], s.key[1]})[h];
+  }
+  gaussian_pair_f32(radial, extension, angle, 0u, g0, g1);
+}
+
 // ---------------------------------------------------------------------------------------------
 // Portable kernels.
 
@@ -153,6 +164,20 @@ void philox_words(const PhiloxStart& s, std::size_t blocks, unsigned shift, std:
   }
 }
 
+void philox_packed_labels(const PhiloxStart& s, std::size_t n, unsigned bits, std::uint32_t* out) {
+  const unsigned per = 32u / bits;
+  const std::uint32_t mask = bits == 32u ? 0xffffffffu : (1u << bits) - 1u;
+  const std::size_t group = 8u * per;
+  for (std::size_t g = 0; g * group < n; ++g) {
+    const auto lo = block_at(s, 2 * g), hi = block_at(s, 2 * g + 1);
+    const std::uint32_t w[8] = {lo[0], lo[1], lo[2], lo[3], hi[0], hi[1], hi[2], hi[3]};
+    for (std::size_t r = 0; r < group && g * group + r < n; ++r) {
+      const unsigned k = static_cast<unsigned>(r / 8), j = static_cast<unsigned>(r % 8);
+      out[g * group + r] = (w[j] >> (32u - bits * (k + 1))) & mask;
+    }
+  }
+}
+
 void philox_uniform_f32(const PhiloxStart& s, std::size_t blocks, float* out) {
   for (std::size_t b = 0; b < blocks; ++b) {
     const auto w = block_at(s, b);
@@ -167,25 +192,31 @@ void gaussian_f64(const PhiloxStart& s, std::size_t blocks, double* out) {
   }
 }
 
-void gaussian_f32(const PhiloxStart& s, std::size_t blocks, float* out) {
-  for (std::size_t b = 0; b < blocks; ++b) {
+void gaussian_f32(const PhiloxStart& s, std::size_t pairs, float* out) {
+  for (std::size_t p = 0; p < pairs; p += 2) {
+    const std::size_t b = p / 2;
     const auto w = block_at(s, b);
-    gaussian_pair_f32(w[0], w[1], w[2], w[3], out + 2 * b, out + 2 * b + 1);
+    gaussian_pair_f32_at(s, b, 0, w[0], w[1], out + 2 * p, out + 2 * p + 1);
+    if (p + 1 < pairs) gaussian_pair_f32_at(s, b, 1, w[2], w[3], out + 2 * p + 2, out + 2 * p + 3);
   }
 }
 
-void noise_cf32(const PhiloxStart& s, std::size_t blocks, float sigma, const float* in, float* out) {
-  for (std::size_t b = 0; b < blocks; ++b) {
+void noise_cf32(const PhiloxStart& s, std::size_t pairs, float sigma, const float* in, float* out) {
+  for (std::size_t p = 0; p < pairs; p += 2) {
+    const std::size_t b = p / 2;
     const auto w = block_at(s, b);
-    float g0, g1;
-    gaussian_pair_f32(w[0], w[1], w[2], w[3], &g0, &g1);
-    const float n0 = sigma * g0, n1 = sigma * g1;
-    if (in) {
-      out[2 * b] = in[2 * b] + n0;
-      out[2 * b + 1] = in[2 * b + 1] + n1;
-    } else {
-      out[2 * b] = n0;
-      out[2 * b + 1] = n1;
+    for (unsigned h = 0; h < 2 && p + h < pairs; ++h) {
+      float g0, g1;
+      gaussian_pair_f32_at(s, b, h, w[2 * h], w[2 * h + 1], &g0, &g1);
+      const float n0 = sigma * g0, n1 = sigma * g1;
+      const std::size_t i = 2 * (p + h);
+      if (in) {
+        out[i] = in[i] + n0;
+        out[i + 1] = in[i + 1] + n1;
+      } else {
+        out[i] = n0;
+        out[i + 1] = n1;
+      }
     }
   }
 }
@@ -262,7 +293,7 @@ std::size_t decimate_f32(const float* taps2, std::size_t n2, const float* line, 
 }  // namespace
 
 const KernelTable kPortableKernels = {
-    "portable",       philox_words,       philox_uniform_f32, gaussian_f64, gaussian_f32, noise_cf32, map_labels,
+    "portable",       philox_words,       philox_packed_labels, philox_uniform_f32, gaussian_f64, gaussian_f32, noise_cf32, map_labels,
     slice_square_qam, count_label_errors, evm_sums,       interpolate_f32,    decimate_f32,
 };
 

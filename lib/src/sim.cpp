@@ -194,7 +194,7 @@ class SymbolRateRunner final : public FrameRunner {
       coded_->transmit(link_.seed_, stream, tx_labels_);
     } else {
       RandomStream payload(link_.seed_, stream, Substream::payload);
-      payload.fill_labels(tx_labels_, c.bits_per_symbol());
+      payload.fill_packed_labels(tx_labels_, c.bits_per_symbol());
     }
     c.map_labels(tx_labels_, tx_);
     RandomStream noise(link_.seed_, stream, Substream::awgn);

@@ -204,11 +204,11 @@ class WaveformRunner final : public FrameRunner {
     if (coded_) {
       // Warm-up and guard symbols from the filler stream, the codeword in between.
       RandomStream filler(link_.seed_, stream, kCodedFillerSubstream);
-      filler.fill_labels(tx_labels_, c.bits_per_symbol());
+      filler.fill_packed_labels(tx_labels_, c.bits_per_symbol());
       coded_->transmit(link_.seed_, stream, std::span<std::uint32_t>(tx_labels_).subspan(link_.warmup_, link_.n_));
     } else {
       RandomStream payload(link_.seed_, stream, Substream::payload);
-      payload.fill_labels(tx_labels_, c.bits_per_symbol());
+      payload.fill_packed_labels(tx_labels_, c.bits_per_symbol());
     }
     c.map_labels(tx_labels_, tx_);
 

@@ -230,3 +230,72 @@ TEST_CASE("configuration errors name the parameter, the value and the range", "[
   CHECK_THROWS_AS(require_range_open_low("linewidth", 0.0, 0.0, 1e9), ConfigError);
   CHECK_NOTHROW(require_range("x", 3.0, 3.0, 3.0));
 }
+
+TEST_CASE("single-precision complex noise: the Rayleigh tail of |z| beyond 3.33 sigma, where radial words are extended",
+          "[core]") {
+  // |z| for z of total variance 2 is Rayleigh with P(|z| > r) = exp(-r^2 / 2) (textbook). Radii
+  // above sqrt(16 ln 2) = 3.33 come only from pairs whose radial word took the extension block's
+  // bits (detail/kernels.hpp), so these frequencies test that path; exact 99.9% Clopper-Pearson
+  // intervals. Calls of odd length in between check that a stream continues at the next block.
+  RandomStream rs(2029, 5, Substream::awgn);
+  const double radii[] = {3.33, 4.0, 4.5, 5.0};
+  std::uint64_t beyond[4] = {0, 0, 0, 0};
+  std::uint64_t n = 0;
+  std::vector<cf32> z(1 << 16);
+  for (int call = 0; call < 64; ++call) {
+    const std::size_t len = z.size() - static_cast<std::size_t>(call % 3);
+    rs.fill_complex_gaussian(std::span<cf32>(z.data(), len), 2.0);
+    for (std::size_t i = 0; i < len; ++i) {
+      const double r = std::abs(std::complex<double>(z[i]));
+      for (int k = 0; k < 4; ++k) beyond[k] += r > radii[k];
+    }
+    n += len;
+  }
+  for (int k = 0; k < 4; ++k) {
+    const double p = std::exp(-radii[k] * radii[k] / 2.0);
+    const Interval ci = clopper_pearson(beyond[k], n, 0.999);
+    INFO("r = " << radii[k] << ": " << beyond[k] << " of " << n << ", expected " << p * static_cast<double>(n));
+    CHECK(ci.low <= p);
+    CHECK(p <= ci.high);
+  }
+}
+
+TEST_CASE("float fills: consecutive calls continue the stream at the next block", "[core]") {
+  // Two pairs per block: a fill of 3 complex samples uses blocks 0 and 1, so the next fill starts
+  // with pair 4 of one long fill; an odd float fill uses the first half of its last pair.
+  RandomStream a(31, 2, Substream::awgn), b(31, 2, Substream::awgn), c(31, 2, Substream::awgn);
+  std::vector<cf32> whole(12), first(3), second(8);
+  a.fill_complex_gaussian(whole, 2.0);
+  b.fill_complex_gaussian(first, 2.0);
+  b.fill_complex_gaussian(second, 2.0);
+  for (int i = 0; i < 3; ++i) CHECK(first[i] == whole[i]);
+  for (int i = 0; i < 8; ++i) CHECK(second[i] == whole[4 + i]);
+  std::vector<float> odd(5);
+  c.fill_gaussian(std::span<float>(odd));
+  for (int i = 0; i < 5; ++i) CHECK(odd[i] == (i % 2 ? whole[i / 2].imag() : whole[i / 2].real()));
+}
+
+TEST_CASE("packed payload labels are uniform and the five labels of a word independent (64-QAM)", "[core]") {
+  // Pearson chi-square of the 64 labels, and of the pairs (label of slot k, label of slot k + 1 of
+  // the same word: 4096 cells) against the 99.9% quantiles of chi-square with 63 and 4095
+  // degrees of freedom (Boost.Math; scipy.stats.chi2.ppf(0.999, 63) = 103.44).
+  std::vector<std::uint32_t> l(40 * 20000);
+  RandomStream(12, 3, Substream::payload).fill_packed_labels(l, 6);
+  std::vector<double> hist(64, 0.0), pairs(4096, 0.0);
+  for (std::size_t g = 0; g < l.size() / 40; ++g)
+    for (std::size_t k = 0; k < 5; ++k)
+      for (std::size_t j = 0; j < 8; ++j) {
+        const std::uint32_t v = l[40 * g + 8 * k + j];
+        REQUIRE(v < 64u);
+        hist[v] += 1.0;
+        if (k + 1 < 5) pairs[64 * v + l[40 * g + 8 * (k + 1) + j]] += 1.0;
+      }
+  const double e1 = static_cast<double>(l.size()) / 64.0;
+  const double e2 = static_cast<double>(l.size()) * 4.0 / 5.0 / 4096.0;
+  double c1 = 0.0, c2 = 0.0;
+  for (double h : hist) c1 += (h - e1) * (h - e1) / e1;
+  for (double h : pairs) c2 += (h - e2) * (h - e2) / e2;
+  using boost::math::chi_squared_distribution;
+  CHECK(c1 < boost::math::quantile(chi_squared_distribution<double>(63.0), 0.999));
+  CHECK(c2 < boost::math::quantile(chi_squared_distribution<double>(4095.0), 0.999));
+}

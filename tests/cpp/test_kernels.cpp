@@ -359,3 +359,87 @@ TEST_CASE("vectorised sweep: counts and EVM sums identical for 1 and 2 threads",
           std::bit_cast<std::uint64_t>(two.points[i].evm.error_power));
   }
 }
+
+TEST_CASE("the single-precision stream is its definition: two pairs per block, tail words from the extension block",
+          "[kernels]") {
+  // Independent evaluation of the definition in detail/kernels.hpp from the public pieces
+  // (philox4x32, known-answer tested in test_core, and box_muller_f32): pair p = 2b + h takes the
+  // radial word w[2h] and the angle word w[2h + 1] of block b; a radial word below 2^24 takes its
+  // low 32 bits from word h of the block whose substream word has bit 31 flipped, any other the
+  // middle of its cell, 2^31.
+  const std::size_t pairs = 20001;  // odd: the last block's second half is unused
+  for (const auto& s : kStarts) {
+    std::vector<float> want(2 * pairs);
+    std::size_t extended = 0;
+    for (std::size_t p = 0; p < pairs; ++p) {
+      const auto b = static_cast<std::uint32_t>(p / 2);
+      const unsigned h = p % 2;
+      const PhiloxKey key{s.key[0], s.key[1]};
+      const auto w = philox4x32({s.counter[0] + b, s.counter[1], s.counter[2], s.counter[3]}, key);
+      std::uint32_t e = 0x80000000u;
+      if (w[2 * h] < (1u << 24)) {
+        e = philox4x32({s.counter[0] + b, s.counter[1] ^ 0x80000000u, s.counter[2], s.counter[3]}, key)[h];
+        ++extended;
+      }
+      const auto g = box_muller_f32(w[2 * h], e, w[2 * h + 1], 0);
+      want[2 * p] = g[0];
+      want[2 * p + 1] = g[1];
+    }
+    // One pair in 256 is extended: about 78 here; the check needs some of them on every path.
+    CHECK(extended > 30);
+    for (const KernelTable* k : detail::available_kernels()) {
+      INFO("path " << k->name);
+      std::vector<float> got(2 * pairs + 1, -7.0f);
+      k->gaussian_f32(s, pairs, got.data());
+      CHECK(got.back() == -7.0f);  // nothing written past the end
+      got.pop_back();
+      REQUIRE(same_bits(got, want));
+      std::vector<float> noise(2 * pairs);
+      const float sigma = 0.3f;
+      k->noise_cf32(s, pairs, sigma, nullptr, noise.data());
+      std::size_t same = 0;
+      for (std::size_t i = 0; i < noise.size(); ++i) same += noise[i] == sigma * want[i];
+      CHECK(same == noise.size());
+    }
+  }
+}
+
+TEST_CASE("packed labels: 32 / bits labels per word in groups of eight words, on every path", "[kernels]") {
+  // Independent evaluation of the order stated in detail/kernels.hpp from philox4x32 words.
+  for (unsigned bits : {1u, 2u, 3u, 4u, 6u, 7u, 8u, 10u, 11u, 16u, 31u, 32u}) {
+    INFO("bits " << bits);
+    const unsigned per = 32u / bits;
+    const std::uint32_t mask = bits == 32u ? 0xffffffffu : (1u << bits) - 1u;
+    for (const auto& s : kStarts) {
+      for (std::size_t n : {0u, 1u, 7u, 8u, 9u, 40u, 41u, 1000u, 4099u}) {
+        std::vector<std::uint32_t> want(n);
+        for (std::size_t i = 0; i < n; ++i) {
+          const std::size_t g = i / (8 * per), r = i % (8 * per), k = r / 8, j = r % 8;
+          const auto b = static_cast<std::uint32_t>(2 * g + j / 4);
+          const auto w = philox4x32({s.counter[0] + b, s.counter[1], s.counter[2], s.counter[3]}, {s.key[0], s.key[1]});
+          want[i] = (w[j % 4] >> (32u - bits * static_cast<unsigned>(k + 1))) & mask;
+        }
+        for (const KernelTable* k : detail::available_kernels()) {
+          INFO("path " << k->name << ", n " << n);
+          std::vector<std::uint32_t> got(n + 1, 0xabcdu);
+          k->philox_packed_labels(s, n, bits, got.data());
+          CHECK(got.back() == 0xabcdu);
+          got.pop_back();
+          REQUIRE(got == want);
+        }
+      }
+    }
+  }
+  // The stream: a call ends at a block boundary, so the next call continues there.
+  RandomStream a(3, 1, Substream::payload), b(3, 1, Substream::payload);
+  std::vector<std::uint32_t> l1(41), l2(41), whole(80);  // 64-QAM: 40 labels per two blocks
+  a.fill_packed_labels(l1, 6);
+  a.fill_packed_labels(l2, 6);
+  b.fill_packed_labels(whole, 6);
+  for (int i = 0; i < 40; ++i) CHECK(l1[i] == whole[i]);
+  RandomStream c(3, 1, Substream::payload);
+  c.seek_block(4);
+  std::vector<std::uint32_t> third(41);
+  c.fill_packed_labels(third, 6);
+  CHECK(third == l2);
+}

@@ -80,10 +80,17 @@ def test_bits_labels_and_uniforms_ranges():
     assert abs(bits.sum() - 50_000) < stats.norm.ppf(0.9995) * np.sqrt(25_000)
     labels = rs.fill_labels(10_000, 6)
     assert labels.dtype == np.uint32 and labels.max() < 64
+    packed = rs.fill_packed_labels(10_000, 6)
+    assert packed.dtype == np.uint32 and packed.max() < 64
+    # Pearson chi-square of the 64 labels against scipy's 99.9% quantile (63 degrees of freedom).
+    counts = np.bincount(packed, minlength=64)
+    assert ((counts - 10_000 / 64) ** 2 / (10_000 / 64)).sum() < stats.chi2.ppf(0.999, 63)
     u = rs.fill_uniform(10_000)
     assert u.dtype == np.float32 and u.min() >= 0.0 and u.max() < 1.0
     with pytest.raises(ValueError, match="bits = 33"):
         rs.fill_labels(4, 33)
+    with pytest.raises(ValueError, match="bits = 0"):
+        rs.fill_packed_labels(4, 0)
 
 
 def test_fill_checks_out_arrays():

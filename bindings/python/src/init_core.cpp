@@ -60,6 +60,19 @@ void raise_config_error(const ConfigError& e) {
   PyErr_SetObject(g_config_error, exc.ptr());
 }
 
+// RandomStream label fills (one label per word, or packed): size or out array, bits checked.
+template <void (RandomStream::*Fill)(std::span<std::uint32_t>, unsigned) noexcept>
+auto label_filler() {
+  return [](RandomStream& rs, py::handle size_or_out_, unsigned bits) {
+    if (bits < 1 || bits > 32) throw ConfigError("bits", std::to_string(bits), "1 to 32");
+    auto a = size_or_out<std::uint32_t>(size_or_out_, "size_or_out");
+    auto s = mutable_span(a);
+    py::gil_scoped_release nogil;
+    (rs.*Fill)(s, bits);
+    return a;
+  };
+}
+
 }  // namespace
 
 void init_core(py::module_& m) {
@@ -172,17 +185,11 @@ void init_core(py::module_& m) {
           },
           "size_or_out"_a, "variance"_a = 1.0,
           "Circular complex Gaussian complex64 samples of total variance `variance` (half per part).")
-      .def(
-          "fill_labels",
-          [](RandomStream& rs, py::handle size_or_out_, unsigned bits) {
-            if (bits < 1 || bits > 32) throw ConfigError("bits", std::to_string(bits), "1 to 32");
-            auto a = size_or_out<std::uint32_t>(size_or_out_, "size_or_out");
-            auto s = mutable_span(a);
-            py::gil_scoped_release nogil;
-            rs.fill_labels(s, bits);
-            return a;
-          },
-          "size_or_out"_a, "bits"_a, "Uniformly random uint32 labels in [0, 2^bits), bits in 1..32.")
+      .def("fill_labels", label_filler<&RandomStream::fill_labels>(), "size_or_out"_a, "bits"_a,
+           "Uniformly random uint32 labels in [0, 2^bits), bits in 1..32.")
+      .def("fill_packed_labels", label_filler<&RandomStream::fill_packed_labels>(), "size_or_out"_a, "bits"_a,
+           "Uniformly random uint32 labels in [0, 2^bits), 32 // bits of them per random word (the sweeps' "
+           "payload), starting at a block boundary.")
       .def(
           "fill_bits",
           [](RandomStream& rs, py::handle size_or_out_) {

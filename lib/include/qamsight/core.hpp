@@ -97,7 +97,8 @@ enum class Substream : std::uint32_t {
 /// uniform is u = (x + 1/2) 2^-64 from a 64-bit word x, exact near zero, so the largest
 /// magnitude it can produce is sqrt(-2 ln 2^-65) = 9.49 sigma and the tail probability
 /// is exact (to double rounding) far beyond the 7 sigma that a BER of 1e-12 needs.
-/// Bulk fills start at a block boundary and use whole 128-bit blocks (two normals each).
+/// Bulk fills start at a block boundary and use whole 128-bit blocks (double normals: two per
+/// block; float normals: four, see fill_gaussian).
 /// Bulk fills run vectorised kernels (AVX2 where the CPU has it) that produce bit-identical
 /// numbers on every path: the log and sin/cos are the library's own double-precision
 /// polynomials (detail/kernels.hpp), not the C library's, so a stream is the same on any CPU.
@@ -118,19 +119,25 @@ class RandomStream {
   /// Fills with uniform [0, 1) floats (24-bit resolution).
   void fill_uniform(std::span<float> out) noexcept;
   /// Fills with independent standard normal samples (variance 1): floats from the
-  /// single-precision generator (box_muller_f32), doubles from the double one (box_muller),
-  /// one Philox block per pair in both.
+  /// single-precision generator (two pairs per Philox block; box_muller_f32 on a 32-bit radial
+  /// word, extended to 64 bits in the tail: detail/kernels.hpp defines it), doubles from the
+  /// double one (box_muller, one block per pair).
   void fill_gaussian(std::span<float> out) noexcept;
   void fill_gaussian(std::span<double> out) noexcept;
   /// Fills with circular complex Gaussian samples of total variance `variance`
   /// (variance/2 per real and imaginary part), single-precision pairs.
   void fill_complex_gaussian(std::span<cf32> out, double variance) noexcept;
-  /// out[i] = in[i] + sigma (g0 + j g1), one block (one single-precision Gaussian pair) per
-  /// sample, all in float (sigma rounded to float first); in and out may be the same span.
-  /// Draws the same Gaussian pairs as fill_complex_gaussian.
+  /// out[i] = in[i] + sigma (g0 + j g1), one single-precision Gaussian pair per sample (two
+  /// samples per Philox block), all in float (sigma rounded to float first); in and out may be
+  /// the same span. Draws the same Gaussian pairs as fill_complex_gaussian.
   void add_complex_noise(std::span<const cf32> in, std::span<cf32> out, double sigma) noexcept;
   /// Fills with uniformly random labels in [0, 2^bits), bits in 1..32.
   void fill_labels(std::span<std::uint32_t> out, unsigned bits) noexcept;
+  /// Fills with uniformly random labels in [0, 2^bits), bits in 1..32, taking 32 / bits labels
+  /// from each word (5 per word for 64-QAM) in the order of detail::KernelTable::
+  /// philox_packed_labels; starts at the next block boundary and ends at one (a call uses
+  /// 2 ceil(n / (8 (32 / bits))) blocks). The sweeps' payload; fill_labels uses one word per label.
+  void fill_packed_labels(std::span<std::uint32_t> out, unsigned bits) noexcept;
   /// Fills with random bits, one per byte (values 0 or 1).
   void fill_bits(std::span<std::uint8_t> out) noexcept;
 

@@ -27,18 +27,30 @@
 //
 // The single-precision one (gaussian_f32, noise_cf32: every float sample stream, so the AWGN
 // of the sweeps) is the same Box-Muller in float arithmetic, twice as wide per vector and
-// without a division:
-//   u = hi + (mid + lo), hi = (w0 >> 8) 2^-24, mid = (((w0 & 0xff) << 16) | (w1 >> 16)) 2^-48,
-//       lo = (w1 & 0xffff) 2^-64 + 2^-65   (three exact parts of (x + 1/2) 2^-64, so u keeps
+// without a division, and it takes two words per pair, so one Philox block gives two pairs:
+//   pair p of a fill comes from block b = p / 2 (counted from the fill's first block), words
+//   r = w[2h] (radial) and t = w[2h + 1] (angle) with h = p % 2;
+//   e = 2^31 if r >= 2^24, else word h of the extension block: the Philox block with the same
+//       counter except word 1 (the substream) XOR 2^31, same key;
+//   (g0, g1) = gaussian_pair_f32(r, e, t), the pair of the 64-bit radial word x = (r << 32) | e:
+//   u = hi + (mid + lo), hi = (r >> 8) 2^-24, mid = (((r & 0xff) << 16) | (e >> 16)) 2^-48,
+//       lo = (e & 0xffff) 2^-64 + 2^-65   (three exact parts of (x + 1/2) 2^-64, so u keeps
 //       float precision near 0),
-//   k = w2 >> 8, t = k 2^-24 turns (w3 unused),
-//   (g0, g1) = sqrt(-2 ln u) (cos 2 pi t, sin 2 pi t)
+//   k = t >> 8, angle k 2^-24 turns,
+//   (g0, g1) = sqrt(-2 ln u) (cos 2 pi k 2^-24, sin 2 pi k 2^-24)
 // with ln from detail::log_unit_f32 and sin/cos on [-pi/4, pi/4] after the same exact quadrant
-// reduction (Cephes single-precision polynomials, about 1 ulp each). The largest radius is again
-// sqrt(-2 ln 2^-65) = 9.49 sigma. From radius 1 on the radius is within 2 float ulps of the exact
-// sqrt(-2 ln u) (measured 1.7 ulp, 2e-7 relative), so the tail probability exp(-r^2/2) is right
-// to a relative r^2 2.4e-7: 1.2e-5 at 7 sigma, 2e-5 at 9 sigma (tests/cpp/test_kernels.cpp and
-// test_core.cpp check the radius against a long double log and the tail crossing at 7, 8, 9).
+// reduction (Cephes single-precision polynomials, about 1 ulp each). Why the extension is exact:
+// for r >= 2^24, u >= 2^-8, where floats are 2^-31 or more apart, so the 2^-32 grid of (r + 1/2)
+// 2^-32 already gives every float value of u the probability the 64-bit uniform would (the
+// rounding boundaries fall on the grid); the tail below u = 2^-8 (radius above 3.33 sigma, one
+// pair in 256) takes the 32 missing bits from the extension block, so u keeps its 64-bit
+// resolution there and the largest radius is again sqrt(-2 ln 2^-65) = 9.49 sigma. From radius 1
+// on the radius is within 2 float ulps of the exact sqrt(-2 ln u) (measured 1.7 ulp, 2e-7
+// relative), so the tail probability exp(-r^2/2) is right to a relative r^2 2.4e-7: 1.2e-5 at
+// 7 sigma, 2e-5 at 9 sigma (tests/cpp/test_kernels.cpp and test_core.cpp check the radius
+// against a long double log, the tail crossing at 7, 8, 9 and the tail frequencies). The vector
+// kernels compute every lane with e = 2^31 and redo the rare extended lanes with the scalar
+// definition (gaussian_pair_f32_at), so all paths still agree bit for bit.
 #pragma once
 
 #include <cstddef>
@@ -61,16 +73,21 @@ struct KernelTable {
 
   /// out[4b + j] = word j of block b, shifted right by `shift` (0..31).
   void (*philox_words)(const PhiloxStart& s, std::size_t blocks, unsigned shift, std::uint32_t* out);
+  /// n labels of `bits` bits (1..32), per = 32 / bits of them from each word: in groups of eight
+  /// words (words 8g .. 8g + 7, i.e. blocks 2g and 2g + 1), label 8 per g + 8 k + j is bits
+  /// 32 - bits (k + 1) .. 31 - bits k of word 8g + j (k < per). Uses 2 ceil(n / (8 per)) blocks.
+  void (*philox_packed_labels)(const PhiloxStart& s, std::size_t n, unsigned bits, std::uint32_t* out);
   /// out[4b + j] = (word j >> 8) 2^-24: uniform floats on [0, 1).
   void (*philox_uniform_f32)(const PhiloxStart& s, std::size_t blocks, float* out);
   /// out[2b], out[2b + 1] = the Gaussian pair of block b (double precision).
   void (*gaussian_f64)(const PhiloxStart& s, std::size_t blocks, double* out);
-  /// out[2b], out[2b + 1] = the single-precision Gaussian pair of block b (gaussian_pair_f32).
-  void (*gaussian_f32)(const PhiloxStart& s, std::size_t blocks, float* out);
-  /// Complex noise, one block per complex sample: out[2b + k] = sigma * g_k (float, the
-  /// single-precision pair), plus in[2b + k] (float addition) when `in` is not null. in may
-  /// equal out.
-  void (*noise_cf32)(const PhiloxStart& s, std::size_t blocks, float sigma, const float* in, float* out);
+  /// out[2p], out[2p + 1] = single-precision Gaussian pair p, p < pairs (two pairs per block,
+  /// ceil(pairs / 2) blocks; see the definition above).
+  void (*gaussian_f32)(const PhiloxStart& s, std::size_t pairs, float* out);
+  /// Complex noise, pair p for complex sample p: out[2p + k] = sigma * g_k (float), plus
+  /// in[2p + k] (float addition) when `in` is not null; in may equal out. Uses ceil(pairs / 2)
+  /// blocks (and, for about one pair in 256, a word of the extension block).
+  void (*noise_cf32)(const PhiloxStart& s, std::size_t pairs, float sigma, const float* in, float* out);
 
   /// Table lookup: out[i] = table[labels[i] & mask] for complex float points (re, im pairs).
   void (*map_labels)(const std::uint32_t* labels, std::size_t n, std::uint32_t mask, const float* table,
@@ -121,9 +138,18 @@ void gaussian_pair(std::uint32_t w0, std::uint32_t w1, std::uint32_t w2, std::ui
                    double* g0, double* g1) noexcept;
 /// ln u for u in [2^-65, 1] in float (normal floats).
 float log_unit_f32(float u) noexcept;
-/// The single-precision Gaussian pair from the words of one Philox block (w3 is not used).
+/// The single-precision Gaussian pair of the 64-bit radial word (w0 << 32) | w1 and the angle
+/// word w2 (w3 is not used).
 void gaussian_pair_f32(std::uint32_t w0, std::uint32_t w1, std::uint32_t w2, std::uint32_t w3, float* g0,
                        float* g1) noexcept;
+/// Single-precision stream pairs start below 2^24 in the radial word take their extension word.
+inline constexpr std::uint32_t kRadialExtendBelow = 1u << 24;
+/// Word 1 (substream) of the extension block's counter is the stream's XOR this bit.
+inline constexpr std::uint32_t kExtensionSubstreamBit = 0x80000000u;
+/// Half h (0 or 1) of block b of the single-precision stream at s, given the block's radial and
+/// angle words of that half (w[2h], w[2h + 1]): the definition above, extension included.
+void gaussian_pair_f32_at(const PhiloxStart& s, std::size_t b, unsigned h, std::uint32_t radial,
+                          std::uint32_t angle, float* g0, float* g1) noexcept;
 
 // Implementations, for the dispatcher (kernels_portable.cpp defines the table chooser).
 extern const KernelTable kPortableKernels;

@@ -155,6 +155,7 @@ void rethrow_with_option_names(const ConfigError& e) {
       {"smoothness", "--rapp-smoothness"}, {"bits", "--adc-bits"},
       {"loading_db", "--adc-loading-db"}, {"tracker_bandwidth", "--tracker-bandwidth"},
       {"pilot_period", "--pilot-period"}, {"offset", "--dc-offset"},
+      {"tracker_detector", "--tracker-detector"}, {"noise_variance", "--tracker-detector"},
       {"delay_samples", "--multipath"}, {"taps", "--multipath"},
       {"sample_rate_hz", "--symbol-rate"}, {"code", "--code"},
       {"target_fer", "--target-fer"}, {"min_frame_errors", "--min-frame-errors"},

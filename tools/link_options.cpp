@@ -44,6 +44,9 @@ void add_link_options(CLI::App* s, LinkOptions& o) {
       ->capture_default_str()->group(g);
   s->add_option("--pilot-period", o.pilot_period, "A known pilot symbol every P symbols for the tracker (0 = none)")
       ->capture_default_str()->group(g);
+  s->add_option("--tracker-detector", o.tracker_detector,
+                "Phase detector: arg (decision angle; the EVM regime) or soft (posterior-mean symbol, for low Es/N0)")
+      ->capture_default_str()->group(g);
 }
 
 namespace {
@@ -134,6 +137,13 @@ void apply_link_options(const LinkOptions& o, LinkConfig& link) {
   }
   im.tracker_bandwidth = o.tracker_bandwidth;
   im.pilot_period = parse_count("--pilot-period", o.pilot_period);
+  if (o.tracker_detector == "arg") {
+    im.tracker_detector = PhaseDetector::arg;
+  } else if (o.tracker_detector == "soft") {
+    im.tracker_detector = PhaseDetector::soft;
+  } else {
+    throw UsageError("--tracker-detector = '" + o.tracker_detector + "' is not allowed; allowed: arg, soft");
+  }
 }
 
 }  // namespace qamsight::cli

@@ -31,6 +31,7 @@ struct LinkOptions {
   std::string tracker = "auto";
   double tracker_bandwidth = 0.01;
   std::string pilot_period = "0";
+  std::string tracker_detector = "arg";
 };
 
 /// Adds --sps, --rolloff, --span, --symbol-rate and the impairment options to a subcommand.

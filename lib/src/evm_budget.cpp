@@ -617,6 +617,9 @@ EvmLineup lineup_from_link(const LinkConfig& link, std::string modulation, doubl
     throw ConfigError("multipath", std::to_string(im.multipath.size()) + " taps",
                       "none in an EVM budget (it models no equaliser)");
   }
+  if (im.tracker_detector != PhaseDetector::arg) {
+    throw ConfigError("tracker_detector", "soft", "arg in an EVM budget (its tracker jitter models the arg detector)");
+  }
   EvmLineup l;
   l.modulation = std::move(modulation);
   l.symbol_rate_hz = im.symbol_rate_hz;

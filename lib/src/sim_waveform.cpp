@@ -138,6 +138,8 @@ class WaveformRunner final : public FrameRunner {
       t.loop_bandwidth = im.tracker_bandwidth;
       t.pilot_period = im.pilot_period;
       t.preamble_symbols = link.warmup_;
+      t.detector = im.tracker_detector;
+      t.noise_variance = std::clamp(link.n0_, 1e-12, 1e9);  // updated per frame after the gain control
       tracker_.emplace(t, link.constellation_);
     }
     tx_labels_.resize(total);
@@ -274,6 +276,9 @@ class WaveformRunner final : public FrameRunner {
     noise_at_decision_ = link_.n0_ / (gain * gain);
     if (tracker_) {
       tracker_->reset();
+      if (link_.config_.impairments.tracker_detector == PhaseDetector::soft) {
+        tracker_->set_noise_variance(std::clamp(noise_at_decision_, 1e-12, 1e9));
+      }
       tracker_->process(z_, z_, std::span<const cf32>(tx_.data(), keep));
     }
   }

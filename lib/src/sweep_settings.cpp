@@ -45,6 +45,8 @@ ordered_json link_settings_json(const LinkConfig& link) {
     if (im.tracking()) {
       i["tracker_bandwidth"] = im.tracker_bandwidth;
       i["pilot_period"] = im.pilot_period;
+      // Only when not the default, so earlier settings (checkpoints, baselines) stay as they were.
+      if (im.tracker_detector == PhaseDetector::soft) i["tracker_detector"] = "soft";
     }
     j["impairments"] = i;
   }

@@ -1,4 +1,5 @@
 // sync: decision-directed / pilot-aided second-order carrier phase tracker at symbol rate.
+#include <algorithm>
 #include <cmath>
 #include <limits>
 #include <numbers>
@@ -17,6 +18,52 @@ inline double wrap_pi(double p) noexcept {
   return p;
 }
 }  // namespace
+
+namespace {
+
+// Posterior weights exp(d_i - max d), d_i = -|y - s_i|^2 / n0, skipping terms below e^-40.
+constexpr double kSkipBelow = -40.0;
+
+// Per-axis posterior mean over the levels (2 l - L + 1) a, l = 0 .. L - 1.
+double axis_mean(double y, unsigned levels, double a, double n0) noexcept {
+  // The nearest level has the largest exponent.
+  const double pos = std::clamp(std::round((y / a + (levels - 1)) / 2.0), 0.0, static_cast<double>(levels - 1));
+  const double nearest = (2.0 * pos - (levels - 1)) * a;
+  const double dmax = -(y - nearest) * (y - nearest) / n0;
+  double num = 0.0, den = 0.0;
+  for (unsigned l = 0; l < levels; ++l) {
+    const double x = (2.0 * l - (levels - 1.0)) * a;
+    const double d = -(y - x) * (y - x) / n0 - dmax;
+    if (d < kSkipBelow) continue;
+    const double w = std::exp(d);
+    num += w * x;
+    den += w;
+  }
+  return num / den;
+}
+
+}  // namespace
+
+cf64 soft_symbol(const Constellation& c, cf64 y, double n0) noexcept {
+  if (c.family() == ConstellationFamily::square_qam) {
+    const unsigned levels = c.levels_per_axis();
+    const double a = c.qam_half_spacing();
+    return {axis_mean(y.real(), levels, a, n0), axis_mean(y.imag(), levels, a, n0)};
+  }
+  const auto pts = c.points();
+  double dmax = -std::numeric_limits<double>::infinity();
+  for (const cf64& s : pts) dmax = std::max(dmax, -std::norm(y - s) / n0);
+  cf64 num{};
+  double den = 0.0;
+  for (const cf64& s : pts) {
+    const double d = -std::norm(y - s) / n0 - dmax;
+    if (d < kSkipBelow) continue;
+    const double w = std::exp(d);
+    num += w * s;
+    den += w;
+  }
+  return num / den;
+}
 
 PhaseLoopGains phase_loop_gains(double loop_bandwidth, double damping, unsigned order) {
   require_range_open_low("loop_bandwidth", loop_bandwidth, 0.0, 0.25);
@@ -45,6 +92,9 @@ PhaseTracker::PhaseTracker(const PhaseTrackerConfig& config, const Constellation
   require_range("preamble_symbols", static_cast<double>(config.preamble_symbols), 0.0, 1073741824.0);
   require_range("initial_phase_rad", config.initial_phase_rad, -kPi, kPi);
   require_range("initial_frequency_rad", config.initial_frequency_rad, -kPi / 8.0, kPi / 8.0);
+  if (config.detector == PhaseDetector::soft) {
+    require_range_open_low("noise_variance", config.noise_variance, 0.0, 1e9);
+  }
   symbol_gains_ = phase_loop_gains(config.loop_bandwidth, config.damping, config.order);
   pilot_gains_ = symbol_gains_;
   if (!config.decisions_between_pilots) {
@@ -70,6 +120,11 @@ void PhaseTracker::reset() noexcept {
   updates_ = 0;
 }
 
+void PhaseTracker::set_noise_variance(double n0) {
+  if (config_.detector == PhaseDetector::soft) require_range_open_low("noise_variance", n0, 0.0, 1e9);
+  config_.noise_variance = n0;
+}
+
 double PhaseTracker::error_rms_rad() const noexcept {
   if (updates_ == 0) return std::numeric_limits<double>::quiet_NaN();
   return std::sqrt(error_sq_ / static_cast<double>(updates_));
@@ -82,6 +137,7 @@ void PhaseTracker::process(std::span<const cf32> in, std::span<cf32> out, std::s
                   "phase estimate buffer shorter than input");
   const std::uint64_t period = config_.pilot_period, preamble = config_.preamble_symbols;
   const bool decisions = config_.decisions_between_pilots;
+  const bool soft = config_.detector == PhaseDetector::soft;
   const std::span<const cf32> points = constellation_.points_f();
   const double pilot_u = period > 0 ? static_cast<double>(period) : 1.0;
   double theta = theta_, omega = omega_, esq = 0.0;
@@ -95,17 +151,24 @@ void PhaseTracker::process(std::span<const cf32> in, std::span<cf32> out, std::s
     if (!phase_estimate.empty()) phase_estimate[i] = theta;
     const bool known = in_preamble || pilot;
     if (known || decisions) {
-      cf32 d;
+      cf64 d;
       if (known) {
         QAMSIGHT_ASSERT(i < reference.size(), "reference symbols missing for a pilot or preamble symbol");
-        d = reference[i];
+        d = cf64(reference[i]);
+      } else if (soft) {
+        d = soft_symbol(constellation_, cf64(y), config_.noise_variance);
       } else {
         std::uint32_t label = 0;
         constellation_.slice(std::span<const cf32>(&y, 1), std::span<std::uint32_t>(&label, 1));
-        d = points[label];
+        d = cf64(points[label]);
       }
-      const cf64 z = cf64(y) * std::conj(cf64(d));
-      const double e = (z.real() == 0.0 && z.imag() == 0.0) ? 0.0 : std::arg(z);
+      const cf64 z = cf64(y) * std::conj(d);
+      double e;
+      if (soft) {
+        e = z.imag();
+      } else {
+        e = (z.real() == 0.0 && z.imag() == 0.0) ? 0.0 : std::arg(z);
+      }
       // Pilot updates of the pilots-only loop come once per period and use its own gains.
       const bool sparse = !decisions && !in_preamble;
       const PhaseLoopGains& g = sparse ? pilot_gains_ : symbol_gains_;

@@ -188,6 +188,9 @@ void validate(const WaveformSpec& spec) {
   if (im.pilot_period != 0) {
     throw ConfigError("pilot_period", std::to_string(im.pilot_period), "0 (the frame format has no pilots)");
   }
+  if (im.tracker_detector != PhaseDetector::arg) {
+    throw ConfigError("tracker_detector", "soft", "arg, the default (a receiver setting: the generator has no receiver)");
+  }
   LinkConfig link;
   link.pulse = spec.pulse;
   link.impairments = im;

@@ -54,6 +54,15 @@ LoopSums linear_loop_sums(const PhaseLoopGains& g, bool phase_step) {
   return s;
 }
 
+// The tracker's phase estimate theta[n] for every symbol of x.
+std::vector<double> tracked_phase(const PhaseTrackerConfig& cfg, const Constellation& c, const std::vector<cf32>& x) {
+  PhaseTracker t(cfg, c);
+  std::vector<cf32> out(x.size());
+  std::vector<double> theta(x.size());
+  t.process(x, out, {}, theta);
+  return theta;
+}
+
 // Mean phase of out against the transmitted symbols over [from, to).
 double mean_residual_rad(const std::vector<cf32>& out, const std::vector<cf32>& tx, std::size_t from,
                          std::size_t to) {
@@ -204,10 +213,7 @@ TEST_CASE("phase tracker: Wiener phase noise leaves a finite residual that falls
     add_noise(x, es_n0_db, 22);
     PhaseTrackerConfig cfg;
     cfg.loop_bandwidth = b;
-    PhaseTracker t(cfg, c);
-    std::vector<cf32> out(n);
-    std::vector<double> theta(n);
-    t.process(x, out, {}, theta);
+    const std::vector<double> theta = tracked_phase(cfg, c, x);
     double s2 = 0.0;
     std::size_t count = 0;
     for (std::size_t i = 2000; i < n; ++i, ++count) {
@@ -315,4 +321,90 @@ TEST_CASE("phase tracker: configuration errors", "[sync]") {
   cfg = {};
   cfg.initial_frequency_rad = 1.0;
   CHECK_THROWS_AS(PhaseTracker(cfg, c), ConfigError);
+}
+
+TEST_CASE("soft_symbol: the posterior mean against closed forms and a direct sum", "[sync]") {
+  // QPSK (points (+-1 +- j) / sqrt 2) per axis: E[d_I | y] = tanh(sqrt(2) y_I / n0) / sqrt(2)
+  // (two-point posterior, per-axis noise n0 / 2; textbook). BPSK: tanh(2 y_I / n0).
+  const Constellation qpsk = Constellation::from_name("qpsk"), bpsk = Constellation::from_name("bpsk");
+  for (double n0 : {0.05, 0.5, 2.0}) {
+    for (double yi : {-1.3, -0.2, 0.0, 0.4, 2.5}) {
+      const double yq = 0.7 - yi;
+      const cf64 s = soft_symbol(qpsk, {yi, yq}, n0);
+      check_close(s.real(), std::tanh(std::sqrt(2.0) * yi / n0) / std::sqrt(2.0), 1e-12, 1e-15);
+      check_close(s.imag(), std::tanh(std::sqrt(2.0) * yq / n0) / std::sqrt(2.0), 1e-12, 1e-15);
+      const cf64 b = soft_symbol(bpsk, {yi, yq}, n0);
+      check_close(b.real(), std::tanh(2.0 * yi / n0), 1e-12, 1e-15);
+      CHECK(std::abs(b.imag()) < 1e-15);
+    }
+  }
+  // 16- and 64-QAM (per-axis path) and 8-PSK (full sum) against the definition summed over every
+  // point in long double here.
+  for (const char* name : {"16qam", "64qam", "8psk"}) {
+    const Constellation c = Constellation::from_name(name);
+    RandomStream rs(5, 1, Substream::user);
+    for (int i = 0; i < 200; ++i) {
+      const double n0 = 0.01 + 2.0 * rs.uniform();
+      const cf64 y(2.4 * rs.uniform() - 1.2, 2.4 * rs.uniform() - 1.2);
+      long double den = 0.0L, nr = 0.0L, ni = 0.0L;
+      for (const cf64& p : c.points()) {
+        const long double w = std::exp(-static_cast<long double>(std::norm(y - p)) / n0);
+        den += w;
+        nr += w * p.real();
+        ni += w * p.imag();
+      }
+      const cf64 s = soft_symbol(c, y, n0);
+      INFO(name << ": y " << y << ", n0 " << n0);
+      check_close(s.real(), static_cast<double>(nr / den), 1e-9, 1e-12);
+      check_close(s.imag(), static_cast<double>(ni / den), 1e-9, 1e-12);
+    }
+  }
+}
+
+TEST_CASE("soft phase detector: high-SNR jitter N0 B_L T, below the arg detector's N0 B_L T E[1/|d|^2]", "[sync]") {
+  // Linear loop theory (the tracker's noise bandwidth B_L T = (1/2) sum h^2): a detector with
+  // noise variance s^2 per update leaves a phase-error variance 2 B_L T s^2. At high SNR the soft
+  // detector's error Im(y conj d) has gain E|d|^2 = 1 and noise variance E|d|^2 N0 / 2, so the
+  // variance is N0 B_L T; the arg detector's noise is N0 / (2 |d|^2), giving N0 B_L T E[1/|d|^2],
+  // with E[1/|d|^2] = (4 / 0.2 + 8 / 1 + 4 / 1.8) / 16 = 1.8889 for unit-energy 16-QAM.
+  const Constellation c = Constellation::from_name("16qam");
+  const double es_n0_db = 25.0, n0 = std::pow(10.0, -es_n0_db / 10.0), b = 0.01, phase = 0.1;
+  const std::size_t n = 1'000'000, skip = 2000;
+  const auto tx = random_symbols(c, n, 11);
+  std::vector<cf32> rx = tx;
+  const cf32 rot(static_cast<float>(std::cos(phase)), static_cast<float>(std::sin(phase)));
+  for (auto& v : rx) v *= rot;
+  add_noise(rx, es_n0_db, 12);
+  double inv = 0.0;
+  for (const cf64& p : c.points()) inv += 1.0 / std::norm(p);
+  inv /= static_cast<double>(c.points().size());
+  check_close(inv, 1.8889, 1e-4);
+  for (PhaseDetector det : {PhaseDetector::soft, PhaseDetector::arg}) {
+    PhaseTrackerConfig cfg;
+    cfg.loop_bandwidth = b;
+    cfg.detector = det;
+    cfg.noise_variance = n0;
+    cfg.initial_phase_rad = phase;
+    const std::vector<double> theta = tracked_phase(cfg, c, rx);
+    double sq = 0.0;
+    for (std::size_t i = skip; i < n; ++i) sq += (theta[i] - phase) * (theta[i] - phase);
+    const double var = sq / static_cast<double>(n - skip);
+    const double want = n0 * b * (det == PhaseDetector::soft ? 1.0 : inv);
+    INFO((det == PhaseDetector::soft ? "soft" : "arg") << ": variance " << var << ", theory " << want);
+    check_close(var, want, 0.10);
+  }
+}
+
+TEST_CASE("soft phase detector: configuration errors name noise_variance", "[sync]") {
+  const Constellation c = Constellation::from_name("qpsk");
+  PhaseTrackerConfig cfg;
+  cfg.detector = PhaseDetector::soft;
+  CHECK_THROWS_WITH(PhaseTracker(cfg, c), Catch::Contains("noise_variance"));
+  cfg.noise_variance = 0.5;
+  PhaseTracker t(cfg, c);
+  CHECK_THROWS_WITH(t.set_noise_variance(std::nan("")), Catch::Contains("noise_variance"));
+  CHECK_THROWS_WITH(t.set_noise_variance(-1.0), Catch::Contains("noise_variance"));
+  cfg.detector = PhaseDetector::arg;
+  cfg.noise_variance = 0.0;  // not needed by the arg detector
+  CHECK_NOTHROW(PhaseTracker(cfg, c));
 }

@@ -251,7 +251,7 @@ _OPTIONAL = {
         "parse_evm_limit", "parse_evm_lineup", "predict_evm", "provenance_name", "simulate_evm",
         "solve_evm_allowance",
     ],
-    "sync": ["PhaseLoopGains", "PhaseTracker", "PhaseTrackerConfig", "phase_loop_gains"],
+    "sync": ["PhaseDetector", "PhaseLoopGains", "PhaseTracker", "PhaseTrackerConfig", "phase_loop_gains", "soft_symbol"],
     "waveform": [
         "CaptureFrame", "CaptureMeasurement", "CaptureReceiver", "CaptureRxConfig", "CaptureStatus", "FrameFormat",
         "ImpairmentChain",

@@ -403,6 +403,7 @@ void init_sim(py::module_& m) {
       .def_readwrite("adc_loading_db", &ImpairmentConfig::adc_loading_db)
       .def_readwrite("tracker", &ImpairmentConfig::tracker)
       .def_readwrite("tracker_bandwidth", &ImpairmentConfig::tracker_bandwidth)
+      .def_readwrite("tracker_detector", &ImpairmentConfig::tracker_detector)
       .def_readwrite("pilot_period", &ImpairmentConfig::pilot_period)
       .def("any", &ImpairmentConfig::any, "True if any impairment is set (then the waveform link is used).")
       .def("tracking", &ImpairmentConfig::tracking, "True if the receiver runs its phase tracker.");

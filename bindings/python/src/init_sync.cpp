@@ -1,4 +1,6 @@
 // init_sync: receiver synchronisation: loop gains and the symbol-rate carrier phase tracker.
+#include <complex>
+
 #include "bindings.hpp"
 #include "qamsight/sync.hpp"
 
@@ -15,17 +17,33 @@ void init_sync(py::module_& m) {
         "Gains for a noise bandwidth B_L T_u and damping (second order: bilinear map of the\n"
         "continuous loop; first order: kp = 4 b / (1 + 2 b)).");
 
+  py::enum_<PhaseDetector>(m, "PhaseDetector",
+                           "Phase detector of the tracker: arg (decision angle) or soft (posterior-mean symbol).")
+      .value("arg", PhaseDetector::arg)
+      .value("soft", PhaseDetector::soft);
+  m.def(
+      "soft_symbol",
+      [](const Constellation& c, std::complex<double> y, double n0) {
+        require_range_open_low("n0", n0, 0.0, 1e9);
+        return soft_symbol(c, y, n0);
+      },
+      "constellation"_a, "y"_a, "n0"_a,
+      "Posterior mean E[d | y] of a uniform constellation point after complex AWGN of total variance n0.");
+
   py::class_<PhaseTrackerConfig>(m, "PhaseTrackerConfig", "Settings of the decision-directed phase tracker.")
       .def(py::init([](double loop_bandwidth, double damping, unsigned order, std::size_t pilot_period,
                        std::size_t preamble_symbols, bool decisions_between_pilots, double initial_phase_rad,
-                       double initial_frequency_rad) {
+                       double initial_frequency_rad, PhaseDetector detector, double noise_variance) {
              return PhaseTrackerConfig{loop_bandwidth,           damping,           order,
                                        pilot_period,             preamble_symbols,  decisions_between_pilots,
-                                       initial_phase_rad,        initial_frequency_rad};
+                                       initial_phase_rad,        initial_frequency_rad, detector,
+                                       noise_variance};
            }),
            "loop_bandwidth"_a = 0.01, "damping"_a = 0.7071, "order"_a = 2, "pilot_period"_a = 0,
            "preamble_symbols"_a = 0, "decisions_between_pilots"_a = true, "initial_phase_rad"_a = 0.0,
-           "initial_frequency_rad"_a = 0.0)
+           "initial_frequency_rad"_a = 0.0, "detector"_a = PhaseDetector::arg, "noise_variance"_a = 0.0)
+      .def_readwrite("detector", &PhaseTrackerConfig::detector)
+      .def_readwrite("noise_variance", &PhaseTrackerConfig::noise_variance)
       .def_readwrite("loop_bandwidth", &PhaseTrackerConfig::loop_bandwidth)
       .def_readwrite("damping", &PhaseTrackerConfig::damping)
       .def_readwrite("order", &PhaseTrackerConfig::order)
@@ -78,7 +96,9 @@ void init_sync(py::module_& m) {
       .def_property_readonly("frequency_rad", &PhaseTracker::frequency_rad, "rad per symbol.")
       .def_property_readonly("symbols", &PhaseTracker::symbols)
       .def("error_rms_rad", &PhaseTracker::error_rms_rad, "RMS detector error since reset (NaN before).")
-      .def("reset", &PhaseTracker::reset);
+      .def("reset", &PhaseTracker::reset)
+      .def("set_noise_variance", &PhaseTracker::set_noise_variance, "n0"_a,
+           "The noise variance the soft detector assumes (0 < n0 <= 1e9).");
 }
 
 }  // namespace qamsight::python

@@ -14,6 +14,7 @@
 #include "qamsight/llr.hpp"
 #include "qamsight/measure.hpp"
 #include "qamsight/modem.hpp"
+#include "qamsight/sync.hpp"
 
 namespace qamsight {
 
@@ -140,6 +141,9 @@ struct ImpairmentConfig {
   TrackerMode tracker = TrackerMode::automatic;  ///< automatic: on with CFO, rotation or phase noise
   double tracker_bandwidth = 0.01;  ///< phase tracker loop bandwidth B_L T (symbol rate)
   std::size_t pilot_period = 0;     ///< known pilot every P symbols for the tracker; 0 = decisions only
+  /// Phase detector of the tracker: arg (the default; what the EVM budget models) or soft (the
+  /// soft-decision-directed detector for low Es/N0, given the receiver's noise variance).
+  PhaseDetector tracker_detector = PhaseDetector::arg;
 
   /// True if any impairment is set (then the waveform link is used).
   bool any() const noexcept;

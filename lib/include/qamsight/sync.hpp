@@ -32,10 +32,29 @@ struct PhaseLoopGains {
 /// (1/2) sum h[n]^2 = kp / (2 (2 - kp)) is exactly b for kp = 4 b / (1 + 2 b).
 PhaseLoopGains phase_loop_gains(double loop_bandwidth, double damping, unsigned order);
 
+/// Phase detector of the tracker.
+///   arg:  e = arg(y conj(d)), d the nearest point (or the known symbol): unit gain, the error
+///         angle itself. Made for the EVM regime (mostly correct decisions); at low Es/N0 wrong
+///         decisions and the equal weight of small, noisy samples make it slip.
+///   soft: e = Im(y conj(s)), s = E[d | y] the posterior mean symbol for AWGN of variance N0
+///         (soft_symbol; the known symbol at pilots): the soft-decision-directed detector, an
+///         approximation of the maximum-likelihood phase detector. Its gain is E|d|^2 = 1 at high
+///         SNR and falls at low SNR as the posterior mean shrinks (the loop narrows there), and
+///         its jitter at high SNR is N0 B_L T against N0 B_L T E[1/|d|^2] for arg (lower for
+///         QAM with several rings). Needs the noise variance at the tracker's input.
+enum class PhaseDetector { arg, soft };
+
+/// Posterior mean E[d | y] of a uniformly random constellation point d after complex AWGN of
+/// total variance n0 (n0 / 2 per axis): sum_i s_i exp(-|y - s_i|^2 / n0) / sum_i exp(...),
+/// per axis for square QAM (the prior and the noise factor), over every point otherwise. Terms
+/// more than e^-40 below the largest are skipped (a relative 4e-18). n0 > 0.
+cf64 soft_symbol(const Constellation& constellation, cf64 y, double n0) noexcept;
+
 /// Decision-directed (optionally pilot-aided) carrier phase tracker at symbol rate.
 ///
 /// Loop (theta[n]: phase estimate applied to symbol n; omega: frequency, rad per symbol):
-///   y[n] = x[n] e^{-j theta[n]},   e[n] = arg(y[n] conj(d[n]))   (unit detector gain),
+///   y[n] = x[n] e^{-j theta[n]},   e[n] = arg(y[n] conj(d[n]))   (unit detector gain; or the
+///                                  soft detector, see PhaseDetector),
 ///   at a symbol that updates the loop:  omega += ki e[n] / U,  theta += kp e[n],
 ///   at every symbol:                    theta[n+1] = theta[n] (+ the update) + omega,
 /// with d[n] the nearest constellation point (decision-directed) or the known symbol (pilot) and
@@ -63,6 +82,8 @@ struct PhaseTrackerConfig {
   bool decisions_between_pilots = true;  ///< false: pilots-only loop (needs pilot_period > 0)
   double initial_phase_rad = 0.0;        ///< -pi to pi
   double initial_frequency_rad = 0.0;    ///< rad per symbol; -pi/8 to pi/8
+  PhaseDetector detector = PhaseDetector::arg;
+  double noise_variance = 0.0;           ///< N0 at the input, per symbol (soft detector: > 0, at most 1e9)
 };
 
 class PhaseTracker {
@@ -88,6 +109,9 @@ class PhaseTracker {
   /// (includes decision errors; NaN before the first update).
   double error_rms_rad() const noexcept;
   void reset() noexcept;
+  /// Changes the noise variance the soft detector assumes (a receiver whose gain changed);
+  /// throws ConfigError unless 0 < n0 <= 1e9 when the detector is soft.
+  void set_noise_variance(double n0);
 
  private:
   PhaseTrackerConfig config_;
